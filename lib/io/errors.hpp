@@ -1,0 +1,29 @@
+#pragma once
+// The two kinds of failure the toolkit reports, and the exit status each maps to
+// (CONTRACT.md: 2 = bad usage or bad input, 3 = numerical failure).
+#include <stdexcept>
+#include <string>
+
+namespace ordex {
+
+/// Bad usage or bad input: malformed or inconsistent model, unknown symbol, bad CSV,
+/// wrong-sized vector, invalid option. The message names the file and key or line. Exit 2.
+class InputError : public std::runtime_error {
+ public:
+  explicit InputError(const std::string& what) : std::runtime_error(what) {}
+};
+
+/// Numerical failure: integrator failure, non-finite values, a singular matrix that must be
+/// inverted. The message says what failed and at which t. Exit 3.
+class NumericalError : public std::runtime_error {
+ public:
+  explicit NumericalError(const std::string& what) : std::runtime_error(what) {}
+};
+
+/// Exit status of the apps.
+enum ExitCode : int { kExitOk = 0, kExitInput = 2, kExitNumerical = 3 };
+
+/// Formats a double with full precision (17 significant digits) for messages.
+std::string format_number(double x);
+
+}  // namespace ordex

@@ -1,0 +1,28 @@
+#pragma once
+// Loading a model file (TOML, CONTRACT.md "Model file"; tabulated models in docs/models.md).
+#include <map>
+#include <memory>
+#include <string>
+
+#include "model/system.hpp"
+
+namespace ordex {
+
+/// Parameter overrides from --set NAME=VALUE (VALUE already parsed to a number).
+using ParameterOverrides = std::map<std::string, double>;
+
+/// Loads PATH. Expressions are parsed once here; evaluation afterwards allocates nothing.
+/// Every mistake throws InputError "PATH: KEY: what is wrong", for example
+/// "models/x.toml: matrices.A[2][1]: unknown symbol 'omeg'". An override whose NAME is not in
+/// [parameters] is an error.
+std::unique_ptr<System> load_model(const std::string& path, const ParameterOverrides& overrides = {});
+
+/// Parses "NAME=VALUE" (VALUE a number or an expression of numbers and pi).
+/// Throws InputError naming the text on failure.
+std::pair<std::string, double> parse_override(const std::string& text);
+
+/// Evaluates an expression of numbers, pi and the functions of CONTRACT.md (no t, no
+/// parameters), for command-line values such as --to 2*pi. WHAT names the value in messages.
+double evaluate_constant(const std::string& text, const std::string& what);
+
+}  // namespace ordex

@@ -1,0 +1,64 @@
+#pragma once
+// The plant x' = A(t) x + B(t) u, y = C(t) x + D(t) u as every module sees it.
+//
+// Evaluation writes into caller-owned matrices of the right size, so a propagation step
+// allocates nothing. A System is not thread-safe (expression models keep their variables
+// inside); a thread that needs its own copy calls clone().
+#include <Eigen/Dense>
+#include <memory>
+#include <optional>
+#include <string>
+#include <utility>
+#include <vector>
+
+namespace ordex {
+
+using MatrixRef = Eigen::Ref<Eigen::MatrixXd>;
+
+/// What a model declares besides its matrices.
+struct SystemInfo {
+  std::string title;                       ///< free text, may be empty
+  std::string source;                      ///< where it came from (file path or "code")
+  std::vector<std::string> state_names;    ///< n names, in state order
+  std::vector<std::string> input_names;    ///< m names (empty: no inputs, no B, no D)
+  std::vector<std::string> output_names;   ///< p names (empty: no outputs, no C, no D)
+  std::optional<double> period;            ///< A, B, C, D repeat with this period
+  std::vector<double> breakpoints;         ///< ascending times where entries may jump
+  std::optional<std::pair<double, double>> window;  ///< default [from, to]
+};
+
+class System {
+ public:
+  virtual ~System() = default;
+
+  const SystemInfo& info() const { return info_; }
+  int states() const { return static_cast<int>(info_.state_names.size()); }
+  int inputs() const { return static_cast<int>(info_.input_names.size()); }
+  int outputs() const { return static_cast<int>(info_.output_names.size()); }
+
+  /// A(t) into OUT (n x n).
+  virtual void A(double t, MatrixRef out) const = 0;
+  /// B(t) into OUT (n x m). Only called when inputs() > 0.
+  virtual void B(double t, MatrixRef out) const = 0;
+  /// C(t) into OUT (p x n). Only called when outputs() > 0.
+  virtual void C(double t, MatrixRef out) const = 0;
+  /// D(t) into OUT (p x m); zero when the model has none.
+  virtual void D(double t, MatrixRef out) const = 0;
+
+  /// An independent copy for use on another thread.
+  virtual std::unique_ptr<System> clone() const = 0;
+
+  // Convenience forms that allocate (not for inner loops).
+  Eigen::MatrixXd A(double t) const;
+  Eigen::MatrixXd B(double t) const;
+  Eigen::MatrixXd C(double t) const;
+  Eigen::MatrixXd D(double t) const;
+
+  /// Sorted breakpoints strictly inside (a, b) (either order of a and b).
+  std::vector<double> breakpoints_between(double a, double b) const;
+
+ protected:
+  SystemInfo info_;
+};
+
+}  // namespace ordex

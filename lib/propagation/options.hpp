@@ -1,0 +1,54 @@
+#pragma once
+// Options of the transition-matrix engine.
+#include <functional>
+#include <string>
+
+namespace ordex {
+
+/// Integration method (CONTRACT.md --method).
+enum class Method {
+  Auto,     ///< chosen by the rule in README "Choosing a method"
+  Magnus4,  ///< Magnus order 4, two Gauss-Legendre nodes, adaptive by step doubling
+  Magnus6,  ///< Magnus order 6, three Gauss-Legendre nodes, adaptive by step doubling
+  Adams,    ///< CVODE Adams-Moulton with fixed-point iteration on vec(Phi) (non-stiff)
+  Bdf       ///< CVODE BDF with Newton; linear solves use the blocks I - gamma A(t) (stiff)
+};
+
+/// "auto", "magnus4", "magnus6", "adams", "bdf".
+std::string method_name(Method m);
+/// Inverse of method_name; throws InputError "--method: unknown method 'x' (choose ...)".
+Method parse_method(const std::string& name);
+
+struct PropagationOptions {
+  /// Method; default Auto.
+  Method method = Method::Auto;
+  /// Relative tolerance of each step's local error, default 1e-8. Must lie in [1e-14, 1e-1].
+  double rtol = 1e-8;
+  /// Absolute tolerance of each step's local error, default 1e-10. Must be > 0.
+  double atol = 1e-10;
+  /// First step size; default 0 means chosen from the size of G at the start.
+  double initial_step = 0.0;
+  /// Largest step size; default 0 means no limit but the window and the breakpoints.
+  double max_step = 0.0;
+  /// Largest number of steps in one call before it fails as a numerical error; default 10^7.
+  long max_steps = 10000000;
+  /// Called now and then with the fraction of the window done, for progress reports; may be
+  /// empty (default).
+  std::function<void(double fraction)> progress;
+
+  /// Throws InputError naming the option when a field is out of range.
+  void validate() const;
+};
+
+/// What a propagation cost and how accurate it is believed to be.
+struct PropagationStats {
+  Method method = Method::Auto;  ///< the method actually used (never Auto)
+  long steps = 0;                ///< accepted steps
+  long rejected_steps = 0;       ///< rejected steps (adaptive Magnus) or error test failures (CVODE)
+  long evaluations = 0;          ///< evaluations of the generator G(t)
+  /// Estimated largest absolute error in any entry of the last transition matrix returned
+  /// (for interval maps: the largest over the intervals).
+  double error_estimate = 0.0;
+};
+
+}  // namespace ordex

@@ -24,6 +24,9 @@ struct OdeProblem {
   std::function<void(const double* r, double* z)> precond_solve;
   /// Times where f may jump: integration stops there and restarts cleanly.
   std::vector<double> breakpoints;
+  /// Optional: called after every accepted internal step with the time, the solution and
+  /// CVODE's estimate of that step's local error (size values each).
+  std::function<void(double t, const double* y, const double* local_error)> on_step;
   std::string label = "ODE";  ///< names the problem in messages
 };
 

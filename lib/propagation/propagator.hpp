@@ -50,8 +50,9 @@ class Propagator {
   const PropagationOptions& options() const { return options_; }
 
  private:
-  /// Integrates X from t_from to t_to starting at X (in place); error estimate of this leg.
-  double advance(double t_from, double t_to, Eigen::MatrixXd& X);
+  /// Integrates X from t_from to t_to in place, legs split at breakpoints. ERROR is the
+  /// estimated error matrix of X, carried in and updated.
+  void advance(double t_from, double t_to, Eigen::MatrixXd& X, Eigen::MatrixXd& error);
 
   Generator generator_;
   PropagationOptions options_;

@@ -1,0 +1,159 @@
+// Magnus integrators of orders 4 and 6 with Gauss-Legendre nodes (Iserles & Norsett 1999;
+// Blanes, Casas & Ros, BIT 40 (2000) 434-450; Blanes, Casas, Oteo & Ros, Phys. Rep. 470 (2009)
+// 151-238, the schemes with two and three nodes). Steps are adaptive by step doubling: one step
+// of h against two of h/2; their difference over 2^p - 1 estimates the local error of the pair
+// of half steps, which is the result kept.
+#include <cmath>
+#include <limits>
+
+#include "io/errors.hpp"
+#include "propagation/expm.hpp"
+#include "propagation/stepper.hpp"
+
+namespace ordex {
+namespace {
+
+class MagnusStepper : public StepperBase {
+ public:
+  MagnusStepper(const Generator& g, const PropagationOptions& o, int order)
+      : g_(g), o_(o), order_(order) {
+    const int n = g.dim;
+    for (auto* m : {&a1_, &a2_, &a3_, &omega_, &c1_, &c2_, &t1_, &t2_, &full_, &h1_, &h2_,
+                    &half_, &diff_, &xnew_, &err_})
+      m->resize(n, n);
+  }
+
+  void advance(double a, double b, Eigen::MatrixXd& X, Eigen::MatrixXd& error, PropagationStats& stats,
+               const std::function<void(double)>& progress) override {
+    const double span = b - a;
+    if (span == 0) return;
+    const double dir = span > 0 ? 1.0 : -1.0;
+    double t = a;
+    double h = std::abs(h_desired_);
+    if (!(h > 0)) h = initial_step(a, std::abs(span), stats);
+    if (o_.max_step > 0) h = std::min(h, o_.max_step);
+    const double p = order_;
+    long steps_here = 0;
+    while (dir * (b - t) > 0) {
+      double remaining = std::abs(b - t);
+      bool last = false;
+      double hs = h;
+      if (hs >= remaining * (1 - 1e-12)) { hs = remaining; last = true; }
+      else if (hs > 0.7 * remaining) hs = 0.5 * remaining;  // avoid a sliver at the end
+      const double hd = dir * hs;
+      step(t, hd, full_, stats);
+      step(t, hd / 2, h1_, stats);
+      step(t + hd / 2, hd / 2, h2_, stats);
+      half_.noalias() = h2_ * h1_;
+      diff_ = half_ - full_;
+      xnew_.noalias() = half_ * X;
+      err_.noalias() = diff_ * X;
+      err_ /= (std::pow(2.0, p) - 1.0);
+      if (!xnew_.allFinite())
+        throw NumericalError(g_.label + ": transition matrix is not finite at t = " + format_number(t));
+      // Weighted RMS of the local error, entrywise weights as CVODE uses.
+      double sum = 0;
+      for (Eigen::Index k = 0; k < err_.size(); ++k) {
+        double w = o_.atol + o_.rtol * std::abs(xnew_(k));
+        double r = err_(k) / w;
+        sum += r * r;
+      }
+      double e = std::sqrt(sum / static_cast<double>(err_.size()));
+      double factor = e > 0 ? 0.9 * std::pow(e, -1.0 / (p + 1.0)) : 5.0;
+      factor = std::min(5.0, std::max(0.2, factor));
+      if (e <= 1.0) {
+        diff_.noalias() = half_ * error;
+        error = diff_ + err_;
+        X.swap(xnew_);
+        t = last ? b : t + hd;
+        ++stats.steps;
+        ++steps_here;
+        if (!last || factor < 1) h = hs * factor;  // keep the long step for the next leg
+        if (progress && (steps_here & 63) == 0) progress(t);
+      } else {
+        ++stats.rejected_steps;
+        h = hs * factor;
+      }
+      if (o_.max_step > 0) h = std::min(h, o_.max_step);
+      if (h < 64 * std::numeric_limits<double>::epsilon() * std::max(1.0, std::abs(t)))
+        throw NumericalError(g_.label + ": step size underflow at t = " + format_number(t));
+      if (steps_here + stats.rejected_steps > o_.max_steps)
+        throw NumericalError(g_.label + ": more than " + std::to_string(o_.max_steps) +
+                             " steps before t = " + format_number(b) + " (reached t = " +
+                             format_number(t) + ")");
+    }
+    h_desired_ = h;
+    if (progress) progress(b);
+  }
+
+ private:
+  double initial_step(double a, double span, PropagationStats& stats) {
+    if (o_.initial_step > 0) return std::min(o_.initial_step, span);
+    g_.eval(a, a1_);
+    ++stats.evaluations;
+    double nrm = norm_inf(a1_);
+    if (!std::isfinite(nrm))
+      throw NumericalError(g_.label + " is not finite at t = " + format_number(a));
+    double h = nrm > 0 ? 0.5 * std::pow(o_.rtol, 1.0 / (order_ + 1)) / nrm : span;
+    return std::min(h, span);
+  }
+
+  /// S = exp(Omega) for the step from t of signed length h.
+  void step(double t, double h, Eigen::MatrixXd& S, PropagationStats& stats) {
+    if (order_ == 4) {
+      const double d = std::sqrt(3.0) / 6.0;
+      g_.eval(t + (0.5 - d) * h, a1_);
+      g_.eval(t + (0.5 + d) * h, a2_);
+      stats.evaluations += 2;
+      // Omega = h/2 (A1 + A2) + sqrt(3) h^2 / 12 [A2, A1]
+      omega_ = (0.5 * h) * (a1_ + a2_);
+      c1_.noalias() = a2_ * a1_;
+      c1_.noalias() -= a1_ * a2_;
+      omega_ += (std::sqrt(3.0) * h * h / 12.0) * c1_;
+    } else {
+      const double d = std::sqrt(15.0) / 10.0;
+      g_.eval(t + (0.5 - d) * h, a1_);
+      g_.eval(t + 0.5 * h, a2_);
+      g_.eval(t + (0.5 + d) * h, a3_);
+      stats.evaluations += 3;
+      // alpha1 = h A2, alpha2 = sqrt(15) h / 3 (A3 - A1), alpha3 = 10 h / 3 (A3 - 2 A2 + A1)
+      // C1 = [alpha1, alpha2], C2 = -1/60 [alpha1, 2 alpha3 + C1]
+      // Omega = alpha1 + alpha3 / 12 + 1/240 [-20 alpha1 - alpha3 + C1, alpha2 + C2]
+      Eigen::MatrixXd& al1 = t1_;
+      Eigen::MatrixXd& al2 = t2_;
+      al1 = h * a2_;
+      al2 = (std::sqrt(15.0) * h / 3.0) * (a3_ - a1_);
+      a3_ = (10.0 * h / 3.0) * (a3_ - 2.0 * a2_ + a1_);  // alpha3, reusing A3's storage
+      c1_.noalias() = al1 * al2;
+      c1_.noalias() -= al2 * al1;
+      a1_ = 2.0 * a3_ + c1_;  // 2 alpha3 + C1
+      c2_.noalias() = al1 * a1_;
+      c2_.noalias() -= a1_ * al1;
+      c2_ *= -1.0 / 60.0;
+      a1_ = -20.0 * al1 - a3_ + c1_;  // left factor
+      a2_ = al2 + c2_;                // right factor
+      omega_ = al1 + a3_ / 12.0;
+      omega_.noalias() += (1.0 / 240.0) * (a1_ * a2_);
+      omega_.noalias() -= (1.0 / 240.0) * (a2_ * a1_);
+    }
+    if (!omega_.allFinite())
+      throw NumericalError(g_.label + " is not finite near t = " + format_number(t));
+    expm_.compute(omega_, S);
+  }
+
+  Generator g_;
+  PropagationOptions o_;
+  int order_;
+  double h_desired_ = 0;
+  Eigen::MatrixXd a1_, a2_, a3_, omega_, c1_, c2_, t1_, t2_, full_, h1_, h2_, half_, diff_, xnew_, err_;
+  MatrixExponential expm_;
+};
+
+}  // namespace
+
+std::unique_ptr<StepperBase> make_magnus_stepper(const Generator& g, const PropagationOptions& o,
+                                                 int order) {
+  return std::make_unique<MagnusStepper>(g, o, order);
+}
+
+}  // namespace ordex

@@ -1,0 +1,153 @@
+#include "propagation/propagator.hpp"
+
+#include <algorithm>
+#include <cmath>
+
+#include "io/errors.hpp"
+#include "propagation/stepper.hpp"
+
+namespace ordex {
+
+Method resolve_auto_method(const Generator&, double, double) {
+  // Magnus order 6 is the default: it keeps the exponential structure of Phi (exact for
+  // commuting and constant generators, stable for stiff linear ones since each step is an
+  // exact exponential), and takes long steps on smooth A(t). See README "Choosing a method".
+  return Method::Magnus6;
+}
+
+Propagator::Propagator(Generator generator, PropagationOptions options)
+    : generator_(std::move(generator)), options_(std::move(options)) {
+  options_.validate();
+  if (generator_.dim < 1 || !generator_.eval)
+    throw InputError(generator_.label + ": the generator is empty");
+  for (double bp : generator_.breakpoints)
+    if (!std::isfinite(bp)) throw InputError(generator_.label + ": a breakpoint is not finite");
+  std::sort(generator_.breakpoints.begin(), generator_.breakpoints.end());
+  Method m = options_.method;
+  if (m == Method::Auto) m = resolve_auto_method(generator_, 0, 0);
+  stats_.method = m;
+  switch (m) {
+    case Method::Magnus4: stepper_ = make_magnus_stepper(generator_, options_, 4); break;
+    case Method::Magnus6: stepper_ = make_magnus_stepper(generator_, options_, 6); break;
+    case Method::Adams: stepper_ = make_cvode_stepper(generator_, options_, false); break;
+    case Method::Bdf: stepper_ = make_cvode_stepper(generator_, options_, true); break;
+    case Method::Auto: break;
+  }
+}
+
+Propagator::~Propagator() = default;
+Propagator::Propagator(Propagator&&) noexcept = default;
+Propagator& Propagator::operator=(Propagator&&) noexcept = default;
+
+namespace {
+
+void require_finite(double t, const std::string& what) {
+  if (!std::isfinite(t)) throw InputError(what + ": time is not finite");
+}
+
+}  // namespace
+
+void Propagator::advance(double a, double b, Eigen::MatrixXd& X, Eigen::MatrixXd& error) {
+  // Legs between breakpoints; the progress fraction runs over [a, b].
+  std::function<void(double)> progress;
+  if (options_.progress && a != b) {
+    auto cb = options_.progress;
+    progress = [cb, a, b](double t) { cb(std::min(1.0, std::abs(t - a) / std::abs(b - a))); };
+  }
+  const double dir = b >= a ? 1.0 : -1.0;
+  double t = a;
+  std::vector<double> stops;
+  for (double bp : generator_.breakpoints)
+    if (dir * (bp - a) > 0 && dir * (b - bp) > 0) stops.push_back(bp);
+  if (dir < 0) std::reverse(stops.begin(), stops.end());
+  stops.push_back(b);
+  for (double s : stops) {
+    stepper_->advance(t, s, X, error, stats_, progress);
+    t = s;
+  }
+}
+
+Eigen::MatrixXd Propagator::transition(double t0, double t1) {
+  require_finite(t0, "t0");
+  require_finite(t1, "t1");
+  Eigen::MatrixXd X = Eigen::MatrixXd::Identity(generator_.dim, generator_.dim);
+  Eigen::MatrixXd error = Eigen::MatrixXd::Zero(generator_.dim, generator_.dim);
+  advance(t0, t1, X, error);
+  stats_.error_estimate = error.cwiseAbs().maxCoeff();
+  return X;
+}
+
+std::vector<Eigen::MatrixXd> Propagator::transition_on_grid(double t0, const std::vector<double>& times) {
+  require_finite(t0, "t0");
+  std::vector<Eigen::MatrixXd> out;
+  out.reserve(times.size());
+  if (times.empty()) return out;
+  double dir = 0;
+  for (std::size_t k = 0; k < times.size(); ++k) {
+    require_finite(times[k], "output grid");
+    double prev = k ? times[k - 1] : t0;
+    double d = times[k] - prev;
+    if (d != 0) {
+      double s = d > 0 ? 1.0 : -1.0;
+      if (dir != 0 && s != dir)
+        throw InputError("output grid: times must be monotone and on one side of t0");
+      dir = s;
+    }
+  }
+  Eigen::MatrixXd X = Eigen::MatrixXd::Identity(generator_.dim, generator_.dim);
+  Eigen::MatrixXd error = Eigen::MatrixXd::Zero(generator_.dim, generator_.dim);
+  double prev = t0;
+  // Progress over the whole grid rather than each leg.
+  auto user_progress = options_.progress;
+  const double span = std::abs(times.back() - t0);
+  for (double tk : times) {
+    if (user_progress && span > 0) {
+      double start = prev;
+      options_.progress = [user_progress, start, tk, t0, span](double f) {
+        user_progress(std::min(1.0, (std::abs(start - t0) + f * std::abs(tk - start)) / span));
+      };
+    }
+    advance(prev, tk, X, error);
+    out.push_back(X);
+    prev = tk;
+  }
+  options_.progress = user_progress;
+  stats_.error_estimate = error.cwiseAbs().maxCoeff();
+  return out;
+}
+
+std::vector<Eigen::MatrixXd> Propagator::interval_maps(const std::vector<double>& times) {
+  std::vector<Eigen::MatrixXd> out;
+  if (times.size() >= 2) out.reserve(times.size() - 1);
+  for_each_interval(times, [&](std::size_t, const Eigen::MatrixXd& S) { out.push_back(S); });
+  return out;
+}
+
+void Propagator::for_each_interval(const std::vector<double>& times,
+                                   const std::function<void(std::size_t, const Eigen::MatrixXd&)>& visit) {
+  if (times.size() < 2) return;
+  const double dir = times[1] > times[0] ? 1.0 : -1.0;
+  for (std::size_t k = 0; k + 1 < times.size(); ++k) {
+    require_finite(times[k + 1], "interval grid");
+    if (!(dir * (times[k + 1] - times[k]) > 0))
+      throw InputError("interval grid: times must be strictly monotone");
+  }
+  auto user_progress = options_.progress;
+  options_.progress = nullptr;
+  double worst = 0;
+  Eigen::MatrixXd X(generator_.dim, generator_.dim), error(generator_.dim, generator_.dim);
+  const double span = std::abs(times.back() - times.front());
+  for (std::size_t k = 0; k + 1 < times.size(); ++k) {
+    X.setIdentity();
+    error.setZero();
+    advance(times[k], times[k + 1], X, error);
+    worst = std::max(worst, error.cwiseAbs().maxCoeff());
+    visit(k, X);
+    if (user_progress && ((k & 255) == 0 || k + 2 == times.size()))
+      user_progress(std::abs(times[k + 1] - times.front()) / span);
+  }
+  options_.progress = user_progress;
+  stats_.error_estimate = worst;
+}
+
+}  // namespace ordex

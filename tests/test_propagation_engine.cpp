@@ -1,0 +1,300 @@
+// The transition-matrix engine against outside references (METHODS.md "The transition matrix").
+#include <gtest/gtest.h>
+
+#include <boost/math/special_functions/airy.hpp>
+#include <cmath>
+#include <sstream>
+#include <unsupported/Eigen/MatrixFunctions>
+
+#include "io/errors.hpp"
+#include "model/function_system.hpp"
+#include "propagation/expm.hpp"
+#include "propagation/floquet.hpp"
+#include "propagation/propagator.hpp"
+#include "support.hpp"
+
+using namespace ordex;
+
+namespace {
+
+const Method kAllMethods[] = {Method::Magnus4, Method::Magnus6, Method::Adams, Method::Bdf};
+
+PropagationOptions opts(Method m, double rtol = 1e-10, double atol = 1e-12) {
+  PropagationOptions o;
+  o.method = m;
+  o.rtol = rtol;
+  o.atol = atol;
+  return o;
+}
+
+double max_abs(const Eigen::MatrixXd& m) { return m.cwiseAbs().maxCoeff(); }
+
+// Airy's equation x'' = t x.
+FunctionSystem airy_system() {
+  FunctionSystem s({"x", "v"}, "Airy");
+  s.set_A([](double t, MatrixRef a) { a << 0, 1, t, 0; });
+  return s;
+}
+
+// Fundamental matrix of Airy's equation from Ai, Bi and their derivatives (Boost.Math).
+Eigen::Matrix2d airy_fundamental(double t) {
+  using namespace boost::math;
+  Eigen::Matrix2d f;
+  f << airy_ai(t), airy_bi(t), airy_ai_prime(t), airy_bi_prime(t);
+  return f;
+}
+
+Eigen::MatrixXd airy_phi(double t1, double t0) {
+  return airy_fundamental(t1) * airy_fundamental(t0).inverse();
+}
+
+FunctionSystem mathieu_system(double a, double q) {
+  FunctionSystem s({"x", "v"}, "Mathieu");
+  s.set_A([a, q](double t, MatrixRef m) { m << 0, 1, -(a - 2 * q * std::cos(2 * t)), 0; });
+  s.set_period(M_PI);
+  return s;
+}
+
+}  // namespace
+
+TEST(PropagationExpm, MatchesEigenMatrixExponentialAcrossNorms) {
+  // Outside reference: Eigen's unsupported MatrixExponential (an independent implementation of
+  // Higham 2005); and exp of a rotation generator in closed form.
+  std::srand(7);
+  MatrixExponential ours;
+  for (double scale : {1e-3, 0.1, 0.9, 2.0, 5.0, 40.0}) {
+    Eigen::MatrixXd a = Eigen::MatrixXd::Random(5, 5) * scale;
+    Eigen::MatrixXd e;
+    ours.compute(a, e);
+    Eigen::MatrixXd ref = a.exp();
+    EXPECT_LT(max_abs(e - ref) / max_abs(ref), 1e-12) << "scale " << scale;
+  }
+  Eigen::MatrixXd r(2, 2);
+  r << 0, 3.0, -3.0, 0;
+  Eigen::MatrixXd e;
+  ours.compute(r, e);
+  EXPECT_NEAR(e(0, 0), std::cos(3.0), 1e-14);
+  EXPECT_NEAR(e(0, 1), std::sin(3.0), 1e-14);
+}
+
+TEST(PropagationEngine, CommutingGeneratorMatchesExponentialOfIntegral) {
+  // A(t) = f(t) A0 commutes with itself at all times, so Phi(t1, t0) = exp(A0 * int f)
+  // (METHODS.md; the Magnus series stops at its first term).
+  Eigen::MatrixXd a0(3, 3);
+  a0 << -0.2, 1.0, 0.3, -1.0, -0.1, 0.5, 0.0, -0.4, -0.3;
+  FunctionSystem s({"a", "b", "c"});
+  s.set_A([a0](double t, MatrixRef m) { m = (1.0 + 0.5 * std::sin(t)) * a0; });
+  const double t0 = 0.3, t1 = 7.0;
+  const double integral = (t1 - t0) - 0.5 * (std::cos(t1) - std::cos(t0));
+  Eigen::MatrixXd ref = (a0 * integral).exp();
+  for (Method m : kAllMethods) {
+    Propagator p(state_generator(s), opts(m));
+    Eigen::MatrixXd phi = p.transition(t0, t1);
+    double err = max_abs(phi - ref);
+    EXPECT_LT(err, 1e-8) << method_name(m);
+    // The error estimate is honest: the actual error is at most 10x the estimate.
+    EXPECT_LE(err, 10 * p.stats().error_estimate + 1e-15) << method_name(m);
+    EXPECT_GT(p.stats().steps, 0);
+    EXPECT_GT(p.stats().evaluations, 0);
+  }
+}
+
+TEST(PropagationEngine, AiryEquationMatchesBoostMath) {
+  // x'' = t x has the fundamental solutions Ai, Bi (Boost.Math special functions); their
+  // Wronskian is 1/pi (Abramowitz & Stegun 10.4.10), which is checked first as a sanity check
+  // of the reference itself.
+  EXPECT_NEAR(airy_fundamental(0.7).determinant(), 1.0 / M_PI, 1e-14);
+  FunctionSystem s = airy_system();
+  for (Method m : kAllMethods) {
+    for (auto [t0, t1] : {std::pair{-6.0, 1.5}, std::pair{2.0, -3.0}}) {
+      Propagator p(state_generator(s), opts(m));
+      Eigen::MatrixXd phi = p.transition(t0, t1);
+      Eigen::MatrixXd ref = airy_phi(t1, t0);
+      double err = max_abs(phi - ref);
+      EXPECT_LT(err / max_abs(ref), 1e-7) << method_name(m) << " " << t0 << "->" << t1;
+      EXPECT_LE(err, 10 * p.stats().error_estimate + 1e-14) << method_name(m) << " " << t0 << "->" << t1;
+    }
+  }
+}
+
+TEST(PropagationEngine, MagnusObservedOrder) {
+  // Fixed steps (tolerance loose, step pinned by initial and max step): on Airy's equation the
+  // error must fall by about 2^p when h halves (p = 4 and 6).
+  FunctionSystem s = airy_system();
+  const double t0 = 0.0, t1 = 2.0;
+  Eigen::MatrixXd ref = airy_phi(t1, t0);
+  for (auto [m, p, hs] : {std::tuple{Method::Magnus4, 4, 0.2}, std::tuple{Method::Magnus6, 6, 0.4}}) {
+    std::vector<double> errors;
+    for (double h : {hs, hs / 2, hs / 4}) {
+      PropagationOptions o = opts(m, 0.1, 1e6);
+      o.initial_step = h;
+      o.max_step = h;
+      Propagator prop(state_generator(s), o);
+      errors.push_back(max_abs(prop.transition(t0, t1) - ref));
+    }
+    for (int k = 0; k + 1 < 3; ++k) {
+      double observed = std::log2(errors[k] / errors[k + 1]);
+      EXPECT_NEAR(observed, p, 0.35) << method_name(m) << " errors " << errors[k] << " " << errors[k + 1];
+    }
+  }
+}
+
+TEST(PropagationEngine, TriangularGeneratorClosedForm) {
+  // A = [[-1, cos t], [0, 0]]: Phi11 = e^{-(t-t0)}, Phi22 = 1, Phi21 = 0,
+  // Phi12 = int_{t0}^{t} e^{-(t-s)} cos s ds = (cos t + sin t - e^{-(t-t0)} (cos t0 + sin t0)) / 2.
+  FunctionSystem s({"p", "q"});
+  s.set_A([](double t, MatrixRef a) { a << -1, std::cos(t), 0, 0; });
+  const double t0 = 0.5, t1 = 6.0;
+  Eigen::MatrixXd ref(2, 2);
+  ref << std::exp(-(t1 - t0)),
+      0.5 * (std::cos(t1) + std::sin(t1) - std::exp(-(t1 - t0)) * (std::cos(t0) + std::sin(t0))), 0, 1;
+  for (Method m : kAllMethods) {
+    Propagator p(state_generator(s), opts(m));
+    EXPECT_LT(max_abs(p.transition(t0, t1) - ref), 1e-9) << method_name(m);
+  }
+}
+
+TEST(PropagationEngine, MathieuMonodromyTraceAtCharacteristicValues) {
+  // At a = a_r(q) or b_r(q) the Mathieu equation has a solution of period pi (r even) or 2 pi
+  // (r odd), so Phi(pi, 0) has a multiplier +1 or -1 and, with det = 1, trace +2 or -2.
+  // Characteristic values live from scipy.special.mathieu_a / mathieu_b.
+  auto r = ordex_test::run_python("propagation_mathieu.py", "1 5");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  std::istringstream in(r.out);
+  std::string kind;
+  int checked = 0;
+  while (in >> kind) {
+    if (kind == "#") break;
+    int order;
+    double q, a;
+    in >> order >> q >> a;
+    FunctionSystem s = mathieu_system(a, q);
+    for (Method m : {Method::Magnus6, Method::Bdf}) {
+      Propagator p(state_generator(s), opts(m, 1e-12, 1e-14));
+      Eigen::MatrixXd mono = p.transition(0, M_PI);
+      double expected = (order % 2 == 0) ? 2.0 : -2.0;
+      // The trace is sensitive to a (d trace / d a is about -400 at q = 5), so the reference
+      // values' own last digits limit this check to about 1e-9; BDF's low order leaves ~1e-7.
+      EXPECT_NEAR(mono.trace(), expected, m == Method::Bdf ? 1e-6 : 2e-8) << kind << order << " q=" << q << " " << method_name(m);
+      FloquetReport fr = floquet_analysis(mono, M_PI);
+      EXPECT_NEAR(std::abs(fr.multipliers(0)), 1.0, 1e-3);
+    }
+    ++checked;
+  }
+  EXPECT_EQ(checked, 14);
+}
+
+TEST(PropagationEngine, FloquetOfConstantGeneratorIsExpLambdaT) {
+  // A constant A has multipliers exp(lambda T) for its eigenvalues lambda (METHODS.md).
+  Eigen::MatrixXd a(2, 2);
+  a << -0.3, 2.0, -2.0, -0.3;  // eigenvalues -0.3 +- 2i
+  FunctionSystem s({"x", "y"});
+  s.set_A([a](double, MatrixRef m) { m = a; });
+  const double T = 1.2;  // 2 T < pi keeps the exponent's imaginary part on the principal branch
+  Propagator p(state_generator(s), opts(Method::Magnus6));
+  FloquetReport fr = floquet_analysis(p.transition(0, T), T);
+  EXPECT_NEAR(std::abs(fr.multipliers(0)), std::exp(-0.3 * T), 1e-10);
+  EXPECT_NEAR(fr.exponents(0).real(), -0.3, 1e-10);
+  EXPECT_NEAR(std::abs(fr.exponents(0).imag()), 2.0, 1e-10);
+  EXPECT_TRUE(fr.stable);
+}
+
+TEST(PropagationEngine, LiouvilleAndCompositionHold) {
+  // det Phi = exp(int trace A) and Phi(t2, t0) = Phi(t2, t1) Phi(t1, t0), on a damped,
+  // pumped oscillator whose trace is not zero.
+  FunctionSystem s({"x", "v"});
+  s.set_A([](double t, MatrixRef m) { m << 0, 1, -(1.3 - 0.8 * std::cos(2 * t)), -0.2 - 0.1 * std::sin(t); });
+  for (Method m : kAllMethods) {
+    Propagator p(state_generator(s), opts(m));
+    Eigen::MatrixXd p20 = p.transition(0.0, 9.0);
+    LiouvilleReport lr = liouville_check(p.generator(), 0.0, 9.0, p20);
+    // int trace = -0.2*9 - 0.1*(1 - cos 9) in closed form.
+    EXPECT_NEAR(std::log(lr.exp_integral_trace), -1.8 - 0.1 * (1 - std::cos(9.0)), 1e-12);
+    EXPECT_LT(lr.relative_difference, 1e-8) << method_name(m);
+    Eigen::MatrixXd p10 = p.transition(0.0, 4.0);
+    Eigen::MatrixXd p21 = p.transition(4.0, 9.0);
+    EXPECT_LT(max_abs(p21 * p10 - p20), 1e-8) << method_name(m);
+  }
+}
+
+TEST(PropagationEngine, BackwardIsInverseOfForward) {
+  FunctionSystem s = mathieu_system(2.5, 1.2);
+  for (Method m : kAllMethods) {
+    Propagator p(state_generator(s), opts(m));
+    Eigen::MatrixXd fwd = p.transition(0.0, 5.0);
+    Eigen::MatrixXd bwd = p.transition(5.0, 0.0);
+    EXPECT_LT(max_abs(fwd * bwd - Eigen::MatrixXd::Identity(2, 2)), 1e-7) << method_name(m);
+  }
+}
+
+TEST(PropagationEngine, AllMethodsAgreeOnSmoothRandomGenerator) {
+  const int n = 6;
+  std::srand(11);
+  Eigen::MatrixXd a0 = Eigen::MatrixXd::Random(n, n), a1 = Eigen::MatrixXd::Random(n, n),
+                  a2 = Eigen::MatrixXd::Random(n, n);
+  FunctionSystem s({"1", "2", "3", "4", "5", "6"});
+  s.set_A([=](double t, MatrixRef m) { m = a0 + std::sin(1.3 * t) * a1 + std::cos(0.7 * t) * a2; });
+  Propagator ref_p(state_generator(s), opts(Method::Magnus6, 1e-13, 1e-15));
+  Eigen::MatrixXd ref = ref_p.transition(0, 3);
+  for (Method m : kAllMethods) {
+    Propagator p(state_generator(s), opts(m, 1e-10, 1e-12));
+    Eigen::MatrixXd phi = p.transition(0, 3);
+    EXPECT_LT(max_abs(phi - ref) / max_abs(ref), 1e-7) << method_name(m);
+  }
+}
+
+TEST(PropagationEngine, StepsLandOnBreakpoints) {
+  // Piecewise-constant A with a jump at t = 1.5: exactly exp(A2 (t1 - 1.5)) exp(A1 (1.5 - t0)).
+  Eigen::MatrixXd a1(2, 2), a2(2, 2);
+  a1 << 0, 1, -4, -0.1;
+  a2 << 0.2, 1, -1, 0;
+  FunctionSystem s({"x", "v"});
+  s.set_A([=](double t, MatrixRef m) { m = t < 1.5 ? a1 : a2; });
+  s.set_breakpoints({1.5});
+  Eigen::MatrixXd ref = (a2 * 2.5).exp() * (a1 * 1.5).exp();
+  for (Method m : kAllMethods) {
+    Propagator p(state_generator(s), opts(m));
+    EXPECT_LT(max_abs(p.transition(0, 4.0) - ref), 1e-7) << method_name(m);
+    auto grid = p.transition_on_grid(0, {1.0, 1.5, 2.0, 4.0});
+    EXPECT_LT(max_abs(grid[1] - (a1 * 1.5).exp()), 1e-8) << method_name(m);
+    EXPECT_LT(max_abs(grid[3] - ref), 1e-7) << method_name(m);
+  }
+}
+
+TEST(PropagationEngine, IntervalMapsComposeToTheWholeWindow) {
+  FunctionSystem s = mathieu_system(1.1, 0.7);
+  for (Method m : kAllMethods) {
+    Propagator p(state_generator(s), opts(m));
+    std::vector<double> times{0.0, 0.4, 1.3, 2.0, 3.1};
+    auto maps = p.interval_maps(times);
+    ASSERT_EQ(maps.size(), 4u);
+    Eigen::MatrixXd prod = Eigen::MatrixXd::Identity(2, 2);
+    for (const auto& S : maps) prod = S * prod;
+    EXPECT_LT(max_abs(prod - p.transition(0.0, 3.1)), 1e-8) << method_name(m);
+    // Backward maps invert the forward ones.
+    auto back = p.interval_maps({3.1, 2.0});
+    EXPECT_LT(max_abs(back[0] * maps[3] - Eigen::MatrixXd::Identity(2, 2)), 1e-8);
+  }
+}
+
+TEST(PropagationEngine, NonFiniteGeneratorIsANumericalError) {
+  FunctionSystem s({"x"});
+  s.set_A([](double t, MatrixRef m) { m(0, 0) = 1.0 / (t - 1.0) - 1.0 / (t - 1.0) + (t > 1.0 ? NAN : 0.0); });
+  for (Method m : kAllMethods) {
+    Propagator p(state_generator(s), opts(m));
+    EXPECT_THROW(p.transition(0, 2), NumericalError) << method_name(m);
+  }
+}
+
+TEST(PropagationOptions, ValidationNamesTheOption) {
+  PropagationOptions o;
+  o.rtol = 0;
+  try {
+    o.validate();
+    FAIL();
+  } catch (const InputError& e) {
+    EXPECT_NE(std::string(e.what()).find("--rtol"), std::string::npos);
+  }
+  EXPECT_THROW(parse_method("rk4"), InputError);
+  EXPECT_EQ(parse_method("magnus6"), Method::Magnus6);
+}

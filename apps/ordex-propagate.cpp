@@ -46,6 +46,8 @@ int main(int argc, char** argv) {
       setup.t1 = t1;
       setup.samples = linspace(setup.t0, setup.t1, common.samples);
     }
+    // Without --csv only Phi(t1, t0) is wanted: no grid, so steps need not stop at samples.
+    if (common.csv.empty()) setup.samples = {setup.t1};
     setup.propagation.progress = terminal_progress("ordex-propagate");
     PropagateReport rep = propagate_model(*setup.system, setup.t0, setup.t1, setup.samples,
                                           setup.propagation, req);

@@ -1,0 +1,21 @@
+#!/usr/bin/env bash
+# Installs the Debian packages ordex needs that are missing; does nothing when all are there.
+# Non-interactive (CI runs it with no standard input).
+set -euo pipefail
+packages=(build-essential cmake pkg-config libeigen3-dev libsundials-dev libboost-dev
+          libboost-program-options-dev libtomlplusplus-dev libmuparser-dev nlohmann-json3-dev
+          libgtest-dev python3-numpy python3-scipy)
+missing=()
+for p in "${packages[@]}"; do
+  dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" || missing+=("$p")
+done
+if [ ${#missing[@]} -eq 0 ]; then
+  echo "ordex: all required packages are installed"
+  exit 0
+fi
+echo "ordex: installing ${missing[*]}"
+SUDO=""
+[ "$(id -u)" -eq 0 ] || SUDO="sudo"
+export DEBIAN_FRONTEND=noninteractive
+$SUDO apt-get update -qq </dev/null
+$SUDO apt-get install -y -qq --no-install-recommends "${missing[@]}" </dev/null

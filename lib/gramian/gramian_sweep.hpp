@@ -1,0 +1,51 @@
+#pragma once
+// One pass of Van Loan's block generator over a time grid: every interval's transition matrix
+// and Gramian, and the running products that let any window [t_i, t_j] of the grid be read off
+// without integrating again.
+//
+// For G(t) = [[a, q], [0, -a']] the transition matrix over [s, t] is X = [[X11, X12], [0, X22]]
+// with X11 = Phi(t, s), X22 = Phi(s, t)' and X12 = int Phi(t, r) q Phi(s, r)' dr, so
+//   W_r(s, t) = X12 X11'   and   W_c(s, t) = X22' X12,
+// and no matrix is ever inverted: Phi(s, t) comes from X22.
+#include <Eigen/Dense>
+#include <vector>
+
+#include "gramian/gramian.hpp"
+#include "propagation/generator.hpp"
+
+namespace ordex {
+
+/// The block generator [[a, q], [0, -a']] of PAIR (2n x 2n) for the engine.
+Generator block_generator(const WeightedPair& pair);
+
+struct GramianSweep {
+  std::vector<double> times;                 ///< the grid t_0 < ... < t_N
+  // Per interval k = 0 .. N-1:
+  std::vector<Eigen::MatrixXd> step_phi;     ///< Phi(t_{k+1}, t_k)
+  std::vector<Eigen::MatrixXd> step_phi_inv; ///< Phi(t_k, t_{k+1}) (from X22, not an inverse)
+  std::vector<Eigen::MatrixXd> step_reach;   ///< W_r(t_k, t_{k+1}) = X12 X11', symmetric
+  std::vector<Eigen::MatrixXd> step_ctrl;    ///< W_c(t_k, t_{k+1}) = X22' X12, symmetric
+  // Per grid point k = 0 .. N:
+  std::vector<Eigen::MatrixXd> phi_from_start;  ///< F_k = Phi(t_k, t_0)
+  std::vector<Eigen::MatrixXd> phi_to_start;    ///< Psi_k = Phi(t_0, t_k)
+  std::vector<Eigen::MatrixXd> cum_ctrl;        ///< C_k = W_c(t_0, t_k)
+  PropagationStats stats;                       ///< summed over the threads
+
+  int n() const { return step_phi.empty() ? 0 : static_cast<int>(step_phi[0].rows()); }
+  std::size_t intervals() const { return step_phi.size(); }
+
+  /// W_r(t_i, t_j) by composing steps: W <- S_k W S_k' + W_k (exact up to the engine's error).
+  Eigen::MatrixXd compose_reachability(std::size_t i, std::size_t j) const;
+  /// W_c(t_i, t_j) by composing steps backward: W <- W_c,k + S_k^-1 W S_k^-T.
+  Eigen::MatrixXd compose_controllability(std::size_t i, std::size_t j) const;
+  /// Phi(t_j, t_i) as the product of the step matrices.
+  Eigen::MatrixXd compose_phi(std::size_t i, std::size_t j) const;
+};
+
+/// Runs the block generator of the pair of KIND of SYS over TIMES (strictly ascending, at least
+/// two). The intervals are split into THREADS contiguous chunks, each propagated on its own
+/// thread with its own clone() of SYS and its own engine. Throws InputError / NumericalError.
+GramianSweep sweep_gramians(const System& sys, GramianKind kind, const std::vector<double>& times,
+                            const PropagationOptions& options, int threads);
+
+}  // namespace ordex

@@ -1,0 +1,93 @@
+#pragma once
+// A System defined by expressions (a loaded model file): what the file says, as plain data
+// (ModelSpec), and the compiled form that evaluates A(t), B(t), C(t), D(t) without allocating.
+#include <memory>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "model/expression.hpp"
+#include "model/system.hpp"
+#include "model/time_table.hpp"
+
+namespace ordex {
+
+/// One matrix entry as written: a number or an expression string.
+struct EntrySpec {
+  bool is_number = true;
+  double number = 0;
+  std::string text;  ///< the expression when !is_number
+  std::string key;   ///< "matrices.A[2][1]" (1-based) for messages
+};
+
+/// One matrix of [matrices]; entries row-major. Absent matrices have present == false.
+struct MatrixSpec {
+  bool present = false;
+  int rows = 0, cols = 0;
+  std::vector<EntrySpec> entries;
+};
+
+/// One [define] entry, in file order.
+struct DefineSpec {
+  std::string name;
+  EntrySpec value;  ///< key "define.NAME"
+  int line = 0;     ///< line in the model file, for "defined later" messages
+  int column = 0;   ///< column of the key (orders entries written on one line)
+};
+
+/// One [table] section, already read.
+struct TableSpec {
+  std::string key;                          ///< "table" or "table[2]"
+  std::shared_ptr<const TimeTable> table;   ///< immutable, shared by clones
+};
+
+/// Everything a model file says, after --set overrides were applied.
+struct ModelSpec {
+  std::string path;                                        ///< the model file, for messages
+  SystemInfo info;                                         ///< names, period, breakpoints, window
+  std::vector<std::pair<std::string, double>> parameters;  ///< values in effect, file order
+  std::vector<DefineSpec> defines;
+  std::vector<TableSpec> tables;
+  MatrixSpec A, B, C, D;
+};
+
+class ExpressionSystem : public System {
+ public:
+  /// Compiles SPEC. Throws InputError "PATH: KEY: what" for any bad expression or a
+  /// time-independent [define] entry that is not finite.
+  explicit ExpressionSystem(ModelSpec spec);
+  ~ExpressionSystem() override;
+
+  void A(double t, MatrixRef out) const override;
+  void B(double t, MatrixRef out) const override;
+  void C(double t, MatrixRef out) const override;
+  void D(double t, MatrixRef out) const override;
+  /// Recompiles the expressions against the copy's own variables (the tables are shared).
+  std::unique_ptr<System> clone() const override;
+
+  using System::A;
+  using System::B;
+  using System::C;
+  using System::D;
+
+  const ModelSpec& spec() const { return spec_; }
+  /// Value of parameter or [define] NAME at T (defines may depend on t). Throws InputError
+  /// for an unknown name. For tests and reports; allocates.
+  double symbol_value(const std::string& name, double t) const;
+  /// Number of matrix entries re-evaluated at every t (the rest are stored constants).
+  int time_varying_entries() const;
+  /// Evaluates every matrix and time-dependent definition at T and throws InputError naming
+  /// the first key whose value is not finite (the load-time check).
+  void check_finite_at(double t) const;
+
+ private:
+  struct Compiled;
+  struct CompiledMatrix;
+  void refresh(double t) const;
+  void fill(const CompiledMatrix& m, double t, MatrixRef out) const;
+
+  ModelSpec spec_;
+  std::unique_ptr<Compiled> c_;
+};
+
+}  // namespace ordex

@@ -1,0 +1,184 @@
+#include "response/discretize.hpp"
+
+#include <chrono>
+#include <cmath>
+#include <fstream>
+#include <sstream>
+
+#include "io/csv.hpp"
+#include "io/errors.hpp"
+
+namespace ordex {
+
+void DiscretizeOptions::validate() const { propagation.validate(); }
+
+DiscretizeReport discretize(const System& sys, const std::vector<double>& times, const DiscretizeOptions& o) {
+  const auto start = std::chrono::steady_clock::now();
+  o.validate();
+  if (times.size() < 2) throw InputError("discretize: the grid needs at least two times");
+  for (std::size_t k = 0; k < times.size(); ++k) {
+    if (!std::isfinite(times[k])) throw InputError("discretize: grid times must be finite");
+    if (k > 0 && !(times[k] > times[k - 1]))
+      throw InputError("discretize: grid times must be strictly increasing (time " + std::to_string(k + 1) + ")");
+  }
+  DiscretizeReport rep;
+  StepMatrixBuilder builder(sys, o.hold, o.propagation, o.reuse_time_invariant);
+  rep.model.hold = o.hold;
+  rep.model.states = sys.states();
+  rep.model.inputs = sys.inputs();
+  rep.model.times = times;
+  rep.model.steps = builder.steps(times);
+  rep.method = builder.method();
+  rep.propagation = builder.stats();
+  rep.computed_steps = builder.computed_steps();
+  rep.reused_steps = builder.reused_steps();
+  rep.time_invariant = builder.time_invariant();
+  rep.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+  return rep;
+}
+
+std::vector<double> step_grid(double t0, double t1, double h) {
+  if (!(h > 0) || !std::isfinite(h)) throw InputError("--step: must be a positive number");
+  if (!(t0 < t1)) throw InputError("--step: the window must run forward (from " + format_number(t0) + " to " + format_number(t1) + ")");
+  const double count = (t1 - t0) / h;
+  if (count > 1e7) throw InputError("--step: " + format_number(h) + " gives more than 10^7 intervals in the window");
+  std::vector<double> t;
+  // Times as t0 + k h (not by repeated addition, which drifts).
+  for (long k = 0;; ++k) {
+    const double tk = t0 + static_cast<double>(k) * h;
+    if (tk >= t1 - 1e-9 * h) break;
+    t.push_back(tk);
+  }
+  t.push_back(t1);
+  return t;
+}
+
+std::vector<double> read_time_grid(const std::string& path) {
+  std::ifstream in(path);
+  if (!in) throw InputError(path + ": cannot open for reading");
+  std::vector<double> t;
+  std::string line;
+  int lineno = 0;
+  bool first = true;
+  while (std::getline(in, line)) {
+    ++lineno;
+    std::size_t b = line.find_first_not_of(" \t\r");
+    if (b == std::string::npos || line[b] == '#') continue;
+    std::size_t e = line.find_last_not_of(" \t\r");
+    const std::string f = line.substr(b, e - b + 1);
+    if (first && f == "t") { first = false; continue; }
+    first = false;
+    char* end = nullptr;
+    const double v = std::strtod(f.c_str(), &end);
+    if (end == f.c_str() || *end != '\0' || !std::isfinite(v))
+      throw InputError(path + ":" + std::to_string(lineno) + ": '" + f + "' is not a finite number (one time a line)");
+    if (!t.empty() && !(v > t.back()))
+      throw InputError(path + ":" + std::to_string(lineno) + ": t is not strictly increasing");
+    t.push_back(v);
+  }
+  if (t.size() < 2)
+    throw InputError(path + ": " + std::to_string(t.size()) + " times, at least 2 are needed");
+  return t;
+}
+
+Eigen::MatrixXd simulate_discrete(const DiscreteModel& model, const Eigen::VectorXd& x0, const Eigen::MatrixXd& U) {
+  const std::size_t K = model.steps.size();
+  if (static_cast<Eigen::Index>(K + 1) != U.rows() && model.inputs > 0)
+    throw InputError("simulate_discrete: " + std::to_string(U.rows()) + " input rows for " + std::to_string(K + 1) + " grid times");
+  Eigen::MatrixXd X(static_cast<Eigen::Index>(K + 1), model.states);
+  Eigen::VectorXd x = x0;
+  X.row(0) = x.transpose();
+  for (std::size_t k = 0; k < K; ++k) {
+    const StepMatrices& s = model.steps[k];
+    Eigen::VectorXd next = s.phi * x;
+    if (model.inputs > 0) {
+      next += s.gamma0 * U.row(static_cast<Eigen::Index>(k)).transpose();
+      if (model.hold == Hold::Linear) next += s.gamma1 * U.row(static_cast<Eigen::Index>(k + 1)).transpose();
+    }
+    x = next;
+    X.row(static_cast<Eigen::Index>(k + 1)) = x.transpose();
+  }
+  return X;
+}
+
+Json discretize_report_json(const DiscretizeReport& rep, const System& sys) {
+  const DiscreteModel& m = rep.model;
+  Json j;
+  j["app"] = "ordex-discretize";
+  j["hold"] = hold_name(m.hold);
+  j["method"] = method_name(rep.method);
+  j["states"] = sys.info().state_names;
+  j["inputs"] = sys.info().input_names;
+  j["intervals"] = m.steps.size();
+  j["times"] = vector_to_json(m.times);
+  Json phi = Json::array(), g0 = Json::array(), g1 = Json::array();
+  for (const StepMatrices& s : m.steps) {
+    phi.push_back(to_json(s.phi));
+    g0.push_back(to_json(s.gamma0));
+    if (m.hold == Hold::Linear) g1.push_back(to_json(s.gamma1));
+  }
+  j["phi"] = phi;
+  if (m.hold == Hold::Zoh) {
+    j["gamma"] = g0;
+  } else {
+    j["gamma0"] = g0;
+    j["gamma1"] = g1;
+  }
+  j["steps"] = rep.propagation.steps;
+  j["rejected_steps"] = rep.propagation.rejected_steps;
+  j["matrix_evaluations"] = rep.propagation.evaluations;
+  j["error_estimate"] = number_to_json(rep.propagation.error_estimate);
+  j["interval_steps_computed"] = rep.computed_steps;
+  j["interval_steps_reused"] = rep.reused_steps;
+  j["time_invariant"] = rep.time_invariant;
+  j["seconds"] = rep.seconds;
+  return j;
+}
+
+void write_discrete_model_csv(const std::string& path, const DiscreteModel& m) {
+  const int n = m.states, nu = m.inputs;
+  std::vector<std::string> header{"k", "t_start", "t_end"};
+  auto add = [&](const std::vector<std::string>& names) { header.insert(header.end(), names.begin(), names.end()); };
+  add(matrix_column_names("phi", n, n));
+  if (m.hold == Hold::Zoh) {
+    add(matrix_column_names("gamma", n, nu));
+  } else {
+    add(matrix_column_names("gamma0", n, nu));
+    add(matrix_column_names("gamma1", n, nu));
+  }
+  CsvWriter w(path, header);
+  std::vector<double> row;
+  for (std::size_t k = 0; k < m.steps.size(); ++k) {
+    const StepMatrices& s = m.steps[k];
+    row.clear();
+    row.push_back(static_cast<double>(k));
+    row.push_back(s.t_start);
+    row.push_back(s.t_end);
+    append_row_major(row, s.phi);
+    append_row_major(row, s.gamma0);
+    if (m.hold == Hold::Linear) append_row_major(row, s.gamma1);
+    w.row(row);
+  }
+  w.commit();
+}
+
+std::string discretize_report_text(const DiscretizeReport& rep, const System& sys) {
+  const DiscreteModel& m = rep.model;
+  std::ostringstream s;
+  s.precision(6);
+  s << "discrete model: " << m.steps.size() << " intervals from t = " << m.times.front() << " to "
+    << m.times.back() << ", " << m.states << " states, " << m.inputs << " inputs, hold " << hold_name(m.hold)
+    << " (" << method_name(rep.method) << ", " << rep.computed_steps << " intervals integrated";
+  if (rep.reused_steps) s << ", " << rep.reused_steps << " reused: time-invariant";
+  s << ", " << rep.seconds << " s)\n";
+  if (!m.steps.empty()) {
+    // The spectral radius of the first and last Phi_k tells at a glance whether steps shrink
+    // or grow the state.
+    auto radius = [](const Eigen::MatrixXd& p) { return p.eigenvalues().cwiseAbs().maxCoeff(); };
+    s << "spectral radius of Phi_k: first " << radius(m.steps.front().phi) << ", last "
+      << radius(m.steps.back().phi) << "\n";
+  }
+  return s.str();
+}
+
+}  // namespace ordex

@@ -1,0 +1,75 @@
+#pragma once
+// The discrete-time model x_{k+1} = Phi_k x_k + Gamma_k u_k of x' = A(t) x + B(t) u on a grid
+// of sample times, exact for an input held between samples:
+//   zoh:    x_{k+1} = Phi_k x_k + Gamma_k u_k
+//   linear: x_{k+1} = Phi_k x_k + Gamma0_k u_k + Gamma1_k u_{k+1}
+// These are the step matrices of step_matrices.hpp, the same ones ordex-respond applies, so
+// the discrete model reproduces the forced response on the same grid.
+#include <Eigen/Dense>
+#include <string>
+#include <vector>
+
+#include "io/json.hpp"
+#include "propagation/options.hpp"
+#include "response/input_history.hpp"
+#include "response/step_matrices.hpp"
+
+namespace ordex {
+
+struct DiscretizeOptions {
+  /// Input between samples; default Hold::Zoh (the usual model of a digital controller's
+  /// output). Use Hold::Linear to match ordex-respond's default.
+  Hold hold = Hold::Zoh;
+  /// Engine options (method, tolerances); default PropagationOptions{}.
+  PropagationOptions propagation;
+  /// Reuse the step of an equal-length interval when the model looks time-invariant
+  /// (looks_time_invariant); default true.
+  bool reuse_time_invariant = true;
+  /// Throws InputError naming the option when a field is out of range.
+  void validate() const;
+};
+
+struct DiscreteModel {
+  Hold hold = Hold::Zoh;
+  int states = 0, inputs = 0;
+  std::vector<double> times;        ///< the grid t_0 < t_1 < ... < t_K
+  std::vector<StepMatrices> steps;  ///< K steps; steps[k] maps t_k to t_{k+1}
+};
+
+struct DiscretizeReport {
+  DiscreteModel model;
+  Method method = Method::Auto;  ///< engine method used
+  PropagationStats propagation;  ///< engine counts and error estimate
+  long computed_steps = 0;       ///< intervals integrated by the engine
+  long reused_steps = 0;         ///< intervals reused from an equal-length one (time-invariant)
+  bool time_invariant = false;   ///< whether the grid was treated as time-invariant
+  double seconds = 0;            ///< wall time
+};
+
+/// The discrete model of SYS on TIMES (at least 2, strictly increasing).
+DiscretizeReport discretize(const System& sys, const std::vector<double>& times, const DiscretizeOptions& options);
+
+/// t0, t0 + h, t0 + 2h, ... and t1 (the last interval is shorter when H does not divide the
+/// window; one shorter than 1e-9 h is merged into its neighbour). Requires t0 < t1, h > 0 and
+/// at most 10^7 intervals; throws InputError naming --step.
+std::vector<double> step_grid(double t0, double t1, double h);
+
+/// Reads one time a line from PATH (blank lines and '#' comments skipped; an optional first
+/// line "t" is a header). At least 2 times, strictly increasing, finite; every mistake throws
+/// InputError "PATH:LINE: what".
+std::vector<double> read_time_grid(const std::string& path);
+
+/// States at the grid times of x_{k+1} = Phi_k x_k + Gamma_k u_k (linear: + Gamma1_k u_{k+1})
+/// from X0, with U row k = u(t_k). Returns (K+1) x n.
+Eigen::MatrixXd simulate_discrete(const DiscreteModel& model, const Eigen::VectorXd& x0, const Eigen::MatrixXd& U);
+
+/// JSON (CONTRACT.md): times, phi (list over intervals of n x n), and gamma (zoh) or gamma0
+/// and gamma1 (linear), lists over intervals of n x m; plus app, hold, method, stats.
+Json discretize_report_json(const DiscretizeReport& report, const System& sys);
+/// CSV, one row an interval: k,t_start,t_end,phi_1_1..phi_n_n, then gamma_1_1..gamma_n_m
+/// (zoh) or gamma0_1_1..gamma0_n_m,gamma1_1_1..gamma1_n_m (linear); row-major, 1-based.
+void write_discrete_model_csv(const std::string& path, const DiscreteModel& model);
+/// A few lines for standard output.
+std::string discretize_report_text(const DiscretizeReport& report, const System& sys);
+
+}  // namespace ordex

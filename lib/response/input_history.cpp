@@ -1,0 +1,113 @@
+#include "response/input_history.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <fstream>
+
+#include "io/csv.hpp"
+#include "io/errors.hpp"
+
+namespace ordex {
+namespace {
+
+std::string join(const std::vector<std::string>& names) {
+  std::string s;
+  for (std::size_t i = 0; i < names.size(); ++i) s += (i ? "," : "") + names[i];
+  return s;
+}
+
+// The 1-based line of the header row: the first line that is neither blank nor a comment
+// (read_csv skips those too).
+int header_line(const std::string& path) {
+  std::ifstream in(path);
+  std::string line;
+  int n = 0;
+  while (std::getline(in, line)) {
+    ++n;
+    std::size_t b = line.find_first_not_of(" \t\r");
+    if (b != std::string::npos && line[b] != '#') return n;
+  }
+  return 1;
+}
+
+}  // namespace
+
+std::string hold_name(Hold hold) { return hold == Hold::Zoh ? "zoh" : "linear"; }
+
+Hold parse_hold(const std::string& name) {
+  if (name == "zoh") return Hold::Zoh;
+  if (name == "linear") return Hold::Linear;
+  throw InputError("--hold: unknown hold '" + name + "' (choose zoh or linear)");
+}
+
+std::string InputHistory::where(std::size_t k) const {
+  if (k < lines.size()) return source + ":" + std::to_string(lines[k]);
+  return source;
+}
+
+InputHistory read_input_history(const std::string& path, const System& sys) {
+  CsvTable table = read_csv(path);
+  const std::vector<std::string>& names = sys.info().input_names;
+  std::vector<std::string> expected{"t"};
+  expected.insert(expected.end(), names.begin(), names.end());
+  if (table.header != expected) {
+    std::string where = path + ":" + std::to_string(header_line(path)) + ": ";
+    if (names.empty())
+      throw InputError(where + "the model has no inputs, so an input history is not used");
+    throw InputError(where + "header '" + join(table.header) + "' does not match the model's inputs (expected '" +
+                     join(expected) + "')");
+  }
+  require_time_column(table, 2);
+  InputHistory h;
+  h.source = path;
+  h.times.resize(static_cast<std::size_t>(table.values.rows()));
+  for (Eigen::Index i = 0; i < table.values.rows(); ++i) h.times[i] = table.values(i, 0);
+  h.values = table.values.rightCols(table.values.cols() - 1);
+  h.lines = table.line_of_row;
+  return h;
+}
+
+InputHistory make_input_history(std::vector<double> times, Eigen::MatrixXd values, std::string source) {
+  if (times.size() < 2) throw InputError(source + ": an input history needs at least two samples");
+  if (static_cast<Eigen::Index>(times.size()) != values.rows())
+    throw InputError(source + ": " + std::to_string(times.size()) + " times but " +
+                     std::to_string(values.rows()) + " rows of input values");
+  for (std::size_t k = 0; k < times.size(); ++k) {
+    if (!std::isfinite(times[k]) || !values.row(k).allFinite())
+      throw InputError(source + ": sample " + std::to_string(k) + " is not finite");
+    if (k > 0 && !(times[k] > times[k - 1]))
+      throw InputError(source + ": sample " + std::to_string(k) + ": t is not strictly increasing");
+  }
+  InputHistory h;
+  h.source = std::move(source);
+  h.times = std::move(times);
+  h.values = std::move(values);
+  return h;
+}
+
+std::size_t interval_of(const std::vector<double>& times, double t) {
+  auto it = std::upper_bound(times.begin(), times.end(), t);
+  std::size_t j = it == times.begin() ? 0 : static_cast<std::size_t>(it - times.begin()) - 1;
+  return std::min(j, times.size() - 2);
+}
+
+void input_on_interval(const InputHistory& h, Hold hold, std::size_t j, double t,
+                       Eigen::Ref<Eigen::VectorXd> u) {
+  if (hold == Hold::Zoh) {
+    u = h.values.row(j).transpose();
+    return;
+  }
+  double a = h.times[j], b = h.times[j + 1];
+  double s = (t - a) / (b - a);
+  u = (1.0 - s) * h.values.row(j).transpose() + s * h.values.row(j + 1).transpose();
+}
+
+void input_at(const InputHistory& h, Hold hold, double t, Eigen::Ref<Eigen::VectorXd> u) {
+  if (hold == Hold::Zoh && t >= h.times.back()) {
+    u = h.values.row(h.values.rows() - 1).transpose();
+    return;
+  }
+  input_on_interval(h, hold, interval_of(h.times, t), t, u);
+}
+
+}  // namespace ordex

@@ -1,0 +1,144 @@
+#include "response/step_matrices.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+#include "io/errors.hpp"
+
+namespace ordex {
+
+Generator held_input_generator(const System& sys, Hold hold) {
+  const int n = sys.states(), m = sys.inputs();
+  Generator g;
+  g.dim = m == 0 ? n : (hold == Hold::Zoh ? n + m : n + 2 * m);
+  g.breakpoints = sys.info().breakpoints;
+  g.label = m == 0 ? "A(t)" : (hold == Hold::Zoh ? "[[A, B], [0, 0]]" : "[[A, B, 0], [0, 0, I], [0, 0, 0]]");
+  const System* s = &sys;
+  g.eval = [s, n, m, hold](double t, MatrixRef out) {
+    out.setZero();
+    s->A(t, out.topLeftCorner(n, n));
+    if (m == 0) return;
+    s->B(t, out.block(0, n, n, m));
+    if (hold == Hold::Linear) out.block(n, n + m, m, m).setIdentity();
+  };
+  return g;
+}
+
+StepMatrices step_from_transition(const Eigen::MatrixXd& S, int n, int m, Hold hold, double a, double b) {
+  StepMatrices st;
+  st.t_start = a;
+  st.t_end = b;
+  st.phi = S.topLeftCorner(n, n);
+  if (hold == Hold::Zoh) {
+    st.gamma0 = S.block(0, n, n, m);
+  } else {
+    // Top-right block: response to a unit slope v, i.e. u(s) = (s - a) v; u(b) - u(a) = h v.
+    st.gamma1 = S.block(0, n + m, n, m) / (b - a);
+    st.gamma0 = S.block(0, n, n, m) - st.gamma1;
+  }
+  return st;
+}
+
+bool looks_time_invariant(const System& sys, double t0, double t1, const std::vector<double>& knots) {
+  if (!sys.breakpoints_between(t0, t1).empty()) return false;
+  const int n = sys.states(), m = sys.inputs(), p = sys.outputs();
+  Eigen::MatrixXd A0(n, n), A(n, n), B0(n, m), B(n, m), C0(p, n), C(p, n), D0(p, m), D(p, m);
+  auto eval = [&](double t, Eigen::MatrixXd& a, Eigen::MatrixXd& b, Eigen::MatrixXd& c, Eigen::MatrixXd& d) {
+    sys.A(t, a);
+    if (m > 0) sys.B(t, b);
+    if (p > 0) sys.C(t, c);
+    if (m > 0 && p > 0) sys.D(t, d);
+  };
+  eval(t0, A0, B0, C0, D0);
+  std::vector<double> probes;
+  // Up to 32 of the knots, spread evenly, and 32 times that no grid is likely to hit
+  // (fractions from the golden-ratio sequence).
+  const std::size_t stride = std::max<std::size_t>(1, knots.size() / 32);
+  for (std::size_t k = 0; k < knots.size(); k += stride) probes.push_back(knots[k]);
+  if (!knots.empty()) probes.push_back(knots.back());
+  probes.push_back(t1);
+  double frac = 0.5;
+  for (int k = 0; k < 32; ++k) {
+    frac = std::fmod(frac + 0.6180339887498949, 1.0);
+    probes.push_back(t0 + frac * (t1 - t0));
+  }
+  for (double t : probes) {
+    eval(t, A, B, C, D);
+    // Exact equality on purpose: an expression of t that is really constant evaluates to the
+    // same double every time.
+    if (A != A0 || (m > 0 && B != B0) || (p > 0 && C != C0) || (m > 0 && p > 0 && D != D0)) return false;
+  }
+  return true;
+}
+
+StepMatrixBuilder::StepMatrixBuilder(const System& sys, Hold hold, PropagationOptions options, bool reuse)
+    : sys_(sys), hold_(hold), reuse_(reuse), generator_(held_input_generator(sys, hold)), options_(std::move(options)) {
+  // Validates the options and resolves the method now, so errors surface before any work.
+  stats_.method = Propagator(generator_, options_).method();
+}
+
+void StepMatrixBuilder::add_stats(const PropagationStats& s) {
+  stats_.method = s.method;
+  stats_.steps += s.steps;
+  stats_.rejected_steps += s.rejected_steps;
+  stats_.evaluations += s.evaluations;
+  stats_.error_estimate = std::max(stats_.error_estimate, s.error_estimate);
+}
+
+void StepMatrixBuilder::for_each_step(const std::vector<double>& knots,
+                                      const std::function<void(std::size_t, const StepMatrices&)>& visit) {
+  if (knots.size() < 2) return;
+  for (std::size_t k = 1; k < knots.size(); ++k)
+    if (!(knots[k] > knots[k - 1])) throw InputError("step grid: times must be strictly increasing");
+  const int n = sys_.states(), m = sys_.inputs();
+  time_invariant_ = reuse_ && looks_time_invariant(sys_, knots.front(), knots.back(), knots);
+  Propagator propagator(generator_, options_);
+  if (!time_invariant_) {
+    propagator.for_each_interval(knots, [&](std::size_t k, const Eigen::MatrixXd& S) {
+      ++computed_;
+      visit(k, step_from_transition(S, n, m, hold_, knots[k], knots[k + 1]));
+    });
+    add_stats(propagator.stats());
+    return;
+  }
+  // Time-invariant: the step depends on the interval length only. Lengths that differ by the
+  // rounding of the times (a few ulps of the largest |t|) count as equal; the error this
+  // admits is of that rounding's size, far below any integration tolerance.
+  const double scale = std::max(std::abs(knots.front()), std::abs(knots.back()));
+  const double same = 64 * std::numeric_limits<double>::epsilon() * std::max(scale, 1e-300);
+  std::vector<StepMatrices> cache;  // a few distinct lengths at most (kept small)
+  cache.reserve(16);                // no reallocation: LAST points into it
+  StepMatrices scratch;
+  const StepMatrices* last = nullptr;
+  for (std::size_t k = 0; k + 1 < knots.size(); ++k) {
+    const double a = knots[k], b = knots[k + 1], h = b - a;
+    const StepMatrices* hit = nullptr;
+    for (const StepMatrices& c : cache)
+      if (std::abs((c.t_end - c.t_start) - h) <= same) { hit = &c; break; }
+    if (hit) {
+      // Copy only when the length changes, so a uniform grid costs no copies.
+      ++reused_;
+      if (hit != last) scratch = *hit;
+      last = hit;
+      scratch.t_start = a;
+      scratch.t_end = b;
+      visit(k, scratch);
+      continue;
+    }
+    StepMatrices st = step_from_transition(propagator.transition(a, b), n, m, hold_, a, b);
+    ++computed_;
+    if (cache.size() < 16) cache.push_back(st);
+    visit(k, st);
+  }
+  add_stats(propagator.stats());
+}
+
+std::vector<StepMatrices> StepMatrixBuilder::steps(const std::vector<double>& knots) {
+  std::vector<StepMatrices> out;
+  out.reserve(knots.empty() ? 0 : knots.size() - 1);
+  for_each_step(knots, [&](std::size_t, const StepMatrices& s) { out.push_back(s); });
+  return out;
+}
+
+}  // namespace ordex

@@ -1,0 +1,18 @@
+#pragma once
+// The two solver routes behind solve_riccati (internal to lib/riccati). Each fills SOL.P at
+// every node of SOL.nodes (already set) and the counts in SOL.stats.
+#include "riccati/riccati_solver.hpp"
+
+namespace ordex {
+
+void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOptions& options, RiccatiSolution& sol);
+void solve_by_hamiltonian(const System& sys, const Weights& w, const RiccatiOptions& options, RiccatiSolution& sol);
+
+/// Upper triangle of the symmetric n x n matrix P, column by column, into Y (n(n+1)/2 values).
+void pack_symmetric(const Eigen::MatrixXd& P, double* y);
+/// The inverse of pack_symmetric.
+void unpack_symmetric(const double* y, Eigen::MatrixXd& P);
+/// Throws NumericalError "WHAT is not finite at t = T" unless every entry of X is finite.
+void require_finite(const Eigen::MatrixXd& x, const std::string& what, double t);
+
+}  // namespace ordex

@@ -1,0 +1,238 @@
+#include "riccati/weights.hpp"
+
+#include <cmath>
+#include <fstream>
+#include <toml++/toml.h>
+
+#include "io/errors.hpp"
+#include "riccati/time_expression.hpp"
+
+namespace ordex {
+
+WeightMatrix WeightMatrix::constant(const Eigen::MatrixXd& value, const std::string& name) {
+  WeightMatrix w;
+  w.rows_ = static_cast<int>(value.rows());
+  w.cols_ = static_cast<int>(value.cols());
+  w.value_ = value;
+  w.name_ = name;
+  return w;
+}
+
+WeightMatrix WeightMatrix::function(int rows, int cols, Fill fill, const std::string& name) {
+  WeightMatrix w;
+  w.rows_ = rows;
+  w.cols_ = cols;
+  w.fill_ = std::move(fill);
+  w.name_ = name;
+  return w;
+}
+
+void WeightMatrix::eval(double t, MatrixRef out) const {
+  if (fill_)
+    fill_(t, out);
+  else
+    out = value_;
+}
+
+Eigen::MatrixXd WeightMatrix::at(double t) const {
+  Eigen::MatrixXd m(rows_, cols_);
+  eval(t, m);
+  return m;
+}
+
+Weights default_weights(int n, int m) {
+  Weights w;
+  w.Q = WeightMatrix::constant(Eigen::MatrixXd::Identity(n, n), "Q (default identity)");
+  w.R = WeightMatrix::constant(Eigen::MatrixXd::Identity(m, m), "R (default identity)");
+  w.Qf = WeightMatrix::constant(Eigen::MatrixXd::Zero(n, n), "Qf (default zero)");
+  w.N = WeightMatrix::constant(Eigen::MatrixXd::Zero(n, m), "N (default zero)");
+  return w;
+}
+
+namespace {
+
+// One entry of a weights matrix as read: a number, or an expression of t.
+struct Entry {
+  int row = 0, col = 0;
+  std::shared_ptr<TimeExpression> expr;  // null: constant
+};
+
+std::string where(const std::string& path, const std::string& key) { return path + ": " + key; }
+
+double entry_value(const toml::node& node, const std::string& what, std::shared_ptr<TimeExpression>& expr) {
+  if (auto v = node.as_integer()) return static_cast<double>(v->get());
+  if (auto v = node.as_floating_point()) {
+    if (!std::isfinite(v->get())) throw InputError(what + ": not a finite number");
+    return v->get();
+  }
+  if (auto v = node.as_string()) {
+    auto e = std::make_shared<TimeExpression>(v->get(), what);
+    if (e->uses_t()) {
+      expr = e;
+      return 0.0;
+    }
+    return (*e)(0.0);
+  }
+  throw InputError(what + ": expected a number or an expression string");
+}
+
+// Reads KEY as a ROWS x COLS matrix (list of rows) or, when square, a flat list of the diagonal.
+WeightMatrix read_matrix(const toml::node& node, const std::string& path, const std::string& key,
+                         int rows, int cols) {
+  const std::string name = where(path, key);
+  const toml::array* arr = node.as_array();
+  if (!arr) throw InputError(name + ": expected a matrix (a list of rows) or a flat list (a diagonal)");
+  Eigen::MatrixXd value = Eigen::MatrixXd::Zero(rows, cols);
+  std::vector<Entry> exprs;
+  const bool flat = !arr->empty() && !(*arr)[0].is_array();
+  if (flat) {
+    if (rows != cols)
+      throw InputError(name + ": a flat list means a diagonal, but " + key + " must be " +
+                       std::to_string(rows) + " x " + std::to_string(cols));
+    if (static_cast<int>(arr->size()) != rows)
+      throw InputError(name + ": the diagonal has " + std::to_string(arr->size()) + " entries, expected " +
+                       std::to_string(rows));
+    for (int i = 0; i < rows; ++i) {
+      const std::string what = name + "[" + std::to_string(i + 1) + "]";
+      if ((*arr)[i].is_array()) throw InputError(what + ": mixes rows and numbers");
+      Entry e{i, i, nullptr};
+      value(i, i) = entry_value((*arr)[i], what, e.expr);
+      if (e.expr) exprs.push_back(e);
+    }
+  } else {
+    if (static_cast<int>(arr->size()) != rows)
+      throw InputError(name + ": " + std::to_string(arr->size()) + " rows, expected " + std::to_string(rows) +
+                       " (" + key + " is " + std::to_string(rows) + " x " + std::to_string(cols) + ")");
+    for (int i = 0; i < rows; ++i) {
+      const std::string rname = name + "[" + std::to_string(i + 1) + "]";
+      const toml::array* row = (*arr)[i].as_array();
+      if (!row) throw InputError(rname + ": expected a row (a list)");
+      if (static_cast<int>(row->size()) != cols)
+        throw InputError(rname + ": " + std::to_string(row->size()) + " entries, expected " + std::to_string(cols));
+      for (int j = 0; j < cols; ++j) {
+        const std::string what = rname + "[" + std::to_string(j + 1) + "]";
+        Entry e{i, j, nullptr};
+        value(i, j) = entry_value((*row)[j], what, e.expr);
+        if (e.expr) exprs.push_back(e);
+      }
+    }
+  }
+  if (exprs.empty()) return WeightMatrix::constant(value, name);
+  // The constant part is kept and the expression entries are written over it at each t.
+  auto fill = [value, exprs](double t, MatrixRef out) {
+    out = value;
+    for (const Entry& e : exprs) out(e.row, e.col) = (*e.expr)(t);
+  };
+  return WeightMatrix::function(rows, cols, fill, name);
+}
+
+}  // namespace
+
+Weights load_weights(const std::string& path, int n, int m) {
+  {
+    std::ifstream probe(path);
+    if (!probe) throw InputError(path + ": cannot open the weights file");
+  }
+  toml::table table;
+  try {
+    table = toml::parse_file(path);
+  } catch (const toml::parse_error& e) {
+    throw InputError(path + ":" + std::to_string(e.source().begin.line) + ": not valid TOML: " +
+                     std::string(e.description()));
+  }
+  Weights w = default_weights(n, m);
+  w.source = path;
+  for (const auto& [k, node] : table) {
+    const std::string key(k.str());
+    if (key == "Q")
+      w.Q = read_matrix(node, path, key, n, n);
+    else if (key == "R")
+      w.R = read_matrix(node, path, key, m, m);
+    else if (key == "Qf")
+      w.Qf = read_matrix(node, path, key, n, n);
+    else if (key == "N") {
+      w.N = read_matrix(node, path, key, n, m);
+      w.has_cross = true;
+    } else {
+      throw InputError(path + ": unknown key '" + key + "' (a weights file has Q, R, Qf and N)");
+    }
+  }
+  return w;
+}
+
+void WeightCheckOptions::validate() const {
+  if (!(symmetry_tolerance > 0 && symmetry_tolerance <= 1e-2))
+    throw InputError("weights symmetry_tolerance: must lie in (0, 1e-2]");
+  if (!(definiteness_tolerance > 0 && definiteness_tolerance <= 1e-2))
+    throw InputError("weights definiteness_tolerance: must lie in (0, 1e-2]");
+}
+
+namespace {
+
+void require_size(const WeightMatrix& w, int rows, int cols, const std::string& key) {
+  if (w.rows() != rows || w.cols() != cols)
+    throw InputError(w.name() + ": " + key + " is " + std::to_string(w.rows()) + " x " + std::to_string(w.cols()) +
+                     ", expected " + std::to_string(rows) + " x " + std::to_string(cols));
+}
+
+void require_symmetric(const Eigen::MatrixXd& x, const WeightMatrix& w, double t, double tol) {
+  const double scale = std::max(1.0, x.cwiseAbs().maxCoeff());
+  Eigen::Index i = 0, j = 0;
+  const double gap = (x - x.transpose()).cwiseAbs().maxCoeff(&i, &j);
+  if (!(gap <= tol * scale))
+    throw InputError(w.name() + ": not symmetric at t = " + format_number(t) + " (entry [" + std::to_string(i + 1) +
+                     "][" + std::to_string(j + 1) + "] = " + format_number(x(i, j)) + " but [" +
+                     std::to_string(j + 1) + "][" + std::to_string(i + 1) + "] = " + format_number(x(j, i)) + ")");
+}
+
+// Smallest and largest-magnitude eigenvalue of a symmetric matrix.
+std::pair<double, double> eigen_range(const Eigen::MatrixXd& x) {
+  Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(0.5 * (x + x.transpose()), Eigen::EigenvaluesOnly);
+  const Eigen::VectorXd& ev = es.eigenvalues();
+  return {ev.minCoeff(), ev.cwiseAbs().maxCoeff()};
+}
+
+}  // namespace
+
+void check_weights(const Weights& w, int n, int m, const std::vector<double>& times, double t_final,
+                   const WeightCheckOptions& options) {
+  options.validate();
+  if (m < 1) throw InputError("the model has no inputs: a regulator needs at least one input (B)");
+  require_size(w.Q, n, n, "Q");
+  require_size(w.R, m, m, "R");
+  require_size(w.Qf, n, n, "Qf");
+  require_size(w.N, n, m, "N");
+  const double stol = options.symmetry_tolerance, dtol = options.definiteness_tolerance;
+  Eigen::MatrixXd Q(n, n), R(m, m), N(n, m), Qf(n, n);
+  // Constant weights need only one look; time-varying ones are checked at every grid time.
+  const bool all_constant = w.Q.is_constant() && w.R.is_constant() && w.N.is_constant();
+  for (double t : times) {
+    w.Q.eval(t, Q);
+    w.R.eval(t, R);
+    w.N.eval(t, N);
+    require_symmetric(Q, w.Q, t, stol);
+    require_symmetric(R, w.R, t, stol);
+    auto [rmin, rmax] = eigen_range(R);
+    if (!(rmin > dtol * std::max(1.0, rmax)))
+      throw InputError(w.R.name() + ": not positive definite at t = " + format_number(t) +
+                       " (smallest eigenvalue " + format_number(rmin) + ")");
+    Eigen::MatrixXd Qt = Q;
+    if (w.has_cross) Qt -= N * R.llt().solve(N.transpose());
+    auto [qmin, qmax] = eigen_range(Qt);
+    if (!(qmin >= -dtol * std::max(1.0, qmax))) {
+      if (w.has_cross)
+        throw InputError(w.Q.name() + ", N: Q - N R^-1 N' is not positive semidefinite at t = " + format_number(t) +
+                         " (smallest eigenvalue " + format_number(qmin) + ")");
+      throw InputError(w.Q.name() + ": not positive semidefinite at t = " + format_number(t) +
+                       " (smallest eigenvalue " + format_number(qmin) + ")");
+    }
+    if (all_constant) break;
+  }
+  w.Qf.eval(t_final, Qf);
+  require_symmetric(Qf, w.Qf, t_final, stol);
+  auto [fmin, fmax] = eigen_range(Qf);
+  if (!(fmin >= -dtol * std::max(1.0, fmax)))
+    throw InputError(w.Qf.name() + ": not positive semidefinite (smallest eigenvalue " + format_number(fmin) + ")");
+}
+
+}  // namespace ordex

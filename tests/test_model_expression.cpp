@@ -113,7 +113,10 @@ TEST(ModelExpression, MessagesNameThePlaceAndTheSymbol) {
   auto msg = [&](const std::string& text) {
     return input_error([&] { Expression(text, scope, "m.toml: matrices.A[2][1]"); });
   };
-  EXPECT_EQ(msg("-omeg^2"), "m.toml: matrices.A[2][1]: unknown symbol 'omeg' in '-omeg^2'");
+  EXPECT_EQ(msg("-omeg^2"),
+            "m.toml: matrices.A[2][1]: unknown symbol 'omeg' in '-omeg^2'; did you mean 'omega'?");
+  EXPECT_EQ(msg("zeta"), "m.toml: matrices.A[2][1]: unknown symbol 'zeta' in 'zeta'");  // nothing close
+  EXPECT_NE(msg("sine(t)").find("unknown function 'sine' in 'sine(t)'; did you mean 'sin'?"), std::string::npos);
   EXPECT_NE(msg("foo(t)").find("unknown function 'foo'"), std::string::npos);
   EXPECT_NE(msg("sin + 1").find("'sin' is a function"), std::string::npos);
   EXPECT_NE(msg("omega(2)").find("'omega' is not a function"), std::string::npos);
@@ -127,8 +130,8 @@ TEST(ModelExpression, MessagesNameThePlaceAndTheSymbol) {
   EXPECT_NE(msg("sin(1, 2)").find("cannot parse"), std::string::npos);
   EXPECT_NE(msg("(1 + t").find("cannot parse"), std::string::npos);
   // muparser's own constant names are not part of the language and never appear by accident.
-  EXPECT_EQ(msg("_pi"), "m.toml: matrices.A[2][1]: unknown symbol '_pi' in '_pi'");
-  EXPECT_EQ(msg("_e"), "m.toml: matrices.A[2][1]: unknown symbol '_e' in '_e'");
+  EXPECT_EQ(msg("_pi"), "m.toml: matrices.A[2][1]: unknown symbol '_pi' in '_pi'; did you mean 'pi'?");
+  EXPECT_EQ(msg("_e").rfind("m.toml: matrices.A[2][1]: unknown symbol '_e' in '_e'", 0), 0u);
   EXPECT_NE(msg("ln(2)").find("unknown function 'ln'"), std::string::npos);
   for (const std::string& m : {msg("2 + "), msg("sin(1, 2)"), msg("(1 + t")})
     EXPECT_EQ(m.find("_pi"), std::string::npos) << m;

@@ -254,8 +254,12 @@ TEST(ModelFile, EveryMistakeNamesTheKey) {
       {"row not a list", h + "[matrices]\nA = [[0, 1], 5]\n", ": matrices.A[2]: expected a list of entries"},
       {"nan literal", h + "[matrices]\nA = [[0, nan], [0, 0]]\n", ": matrices.A[1][2]: not a finite number"},
       {"unknown key", "[system]\nstates = [\"x\"]\nstats = [\"y\"]\n[matrices]\nA = [[0]]\n",
-       ": system.stats: unknown key (line 3; expected title, states, inputs, outputs, period, breakpoints)"},
+       ": system.stats: unknown key (line 3; expected title, states, inputs, outputs, period, breakpoints); "
+       "did you mean 'states'?"},
       {"unknown table", h + "[matrix]\nA = [[0, 1], [0, 0]]\n", ": matrix: unknown key"},
+      {"misspelled table", h + "[paramters]\nA = 1\n[matrices]\nA = [[0, 1], [0, 0]]\n",
+       ": paramters: unknown key (line 3; expected the tables [system, window, parameters, define, table, "
+       "matrices]); did you mean 'parameters'?"},
       {"unknown matrix", h + "[matrices]\nA = [[0, 1], [0, 0]]\nE = [[1]]\n", ": matrices.E: unknown key"},
       {"unknown window key", h + "[window]\nfrom = 0\nuntil = 1\n[matrices]\nA = [[0, 1], [0, 0]]\n",
        ": window.until: unknown key"},
@@ -266,6 +270,8 @@ TEST(ModelFile, EveryMistakeNamesTheKey) {
        ": window.to: 't' cannot be used here"},
       {"period not positive", h + "period = -1\n[matrices]\nA = [[0, 1], [0, 0]]\n",
        ": system.period: -1 is not positive"},
+      {"breakpoints not a list", h + "breakpoints = 1.5\n[matrices]\nA = [[0, 1], [0, 0]]\n",
+       ": system.breakpoints: expected a list of times, found a number"},
       {"breakpoint symbol", h + "breakpoints = [1, \"tb\"]\n[matrices]\nA = [[0, 1], [0, 0]]\n",
        ": system.breakpoints[2]: unknown symbol 'tb'"},
       {"parameter expression", h + "[parameters]\na = \"1 + 2\"\n[matrices]\nA = [[0, 1], [0, 0]]\n",
@@ -330,6 +336,12 @@ TEST(ModelFile, MissingFile) {
   }
   // An empty file is valid TOML but not a model.
   EXPECT_NE(load_error("").find(": system: missing"), std::string::npos);
+}
+
+TEST(ModelFile, WrongSizedOutputIsRefused) {
+  auto sys = load_model(model_path("mathieu.toml"));
+  Eigen::MatrixXd small(1, 2);
+  EXPECT_THROW(sys->A(0.0, small), std::invalid_argument);
 }
 
 TEST(ModelFile, NonFiniteDuringEvaluationIsNumericalError) {

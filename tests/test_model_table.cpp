@@ -214,6 +214,19 @@ A = [["-k"]]
   EXPECT_EQ(sys->info().breakpoints, (std::vector<double>{0, 1, 4, 5}));
   auto copy = sys->clone();
   EXPECT_EQ(copy->A(2.5), sys->A(2.5));
+  // A mistake in the second table names it by position.
+  std::string bad = write("nested/two_bad.toml", R"M(
+[system]
+states = ["x"]
+[[table]]
+file = "speed.csv"
+[[table]]
+file = "mass.csv"
+interpolation = "spline"
+[matrices]
+A = [["-U"]]
+)M");
+  EXPECT_NE(input_error([&] { load_model(bad); }).find(bad + ": table[2].interpolation: expected"), std::string::npos);
 }
 
 TEST(ModelTable, VehicleModelUsesTheSpeedSchedule) {

@@ -9,6 +9,7 @@
 #include <set>
 
 #include "io/errors.hpp"
+#include "model/spelling.hpp"
 
 namespace ordex {
 namespace {
@@ -118,7 +119,8 @@ Scan scan(const std::string& text, const SymbolScope& scope,
         if (is_function(name)) continue;
         if (scope.has(name))
           throw InputError(where + ": '" + name + "' is not a function, in " + quoted);
-        throw InputError(where + ": unknown function '" + name + "' in " + quoted);
+        throw InputError(where + ": unknown function '" + name + "' in " + quoted +
+                         did_you_mean(name, function_names()));
       }
       if (name == "pi") continue;
       if (is_function(name))
@@ -134,7 +136,9 @@ Scan scan(const std::string& text, const SymbolScope& scope,
       }
       auto u = unavailable.find(name);
       if (u != unavailable.end()) throw InputError(where + ": " + u->second + ", in " + quoted);
-      throw InputError(where + ": unknown symbol '" + name + "' in " + quoted);
+      std::vector<std::string> known = scope.names();
+      known.push_back("pi");
+      throw InputError(where + ": unknown symbol '" + name + "' in " + quoted + did_you_mean(name, known));
     }
     if (c == '=') {
       bool comparison = (i + 1 < n && text[i + 1] == '=') ||
@@ -225,6 +229,14 @@ void SymbolScope::add_variable(const std::string& name, double* slot) {
   constants_.erase(name);
   unavailable_.erase(name);
   variables_[name] = slot;
+}
+
+std::vector<std::string> SymbolScope::names() const {
+  std::vector<std::string> out;
+  for (const auto& c : constants_) out.push_back(c.first);
+  for (const auto& v : variables_) out.push_back(v.first);
+  std::sort(out.begin(), out.end());
+  return out;
 }
 
 void SymbolScope::add_unavailable(const std::string& name, const std::string& note) {

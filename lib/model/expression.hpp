@@ -46,6 +46,8 @@ class SymbolScope {
   bool is_variable(const std::string& name) const { return variables_.count(name) > 0; }
   /// True for constants and variables (not functions, not unavailable names).
   bool has(const std::string& name) const { return is_constant(name) || is_variable(name); }
+  /// Every constant and variable name, sorted (for "did you mean" hints).
+  std::vector<std::string> names() const;
 
  private:
   friend class Expression;

@@ -4,6 +4,7 @@
 #include <limits>
 #include <map>
 #include <set>
+#include <stdexcept>
 
 #include "io/errors.hpp"
 
@@ -148,6 +149,11 @@ void ExpressionSystem::refresh(double t) const {
 }
 
 void ExpressionSystem::fill(const CompiledMatrix& m, double t, MatrixRef out) const {
+  // A caller's wrong size would be a silent overrun in a release build: refuse it.
+  if (out.rows() != m.base.rows() || out.cols() != m.base.cols())
+    throw std::invalid_argument(spec_.path + ": a matrix of size " + std::to_string(out.rows()) + " x " +
+                                std::to_string(out.cols()) + " was passed for one of size " +
+                                std::to_string(m.base.rows()) + " x " + std::to_string(m.base.cols()));
   refresh(t);
   out = m.base;
   for (const auto& e : m.varying) {

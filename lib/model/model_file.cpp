@@ -14,6 +14,7 @@
 #include "io/errors.hpp"
 #include "model/expression.hpp"
 #include "model/expression_system.hpp"
+#include "model/spelling.hpp"
 #include "model/time_table.hpp"
 
 namespace ordex {
@@ -92,7 +93,8 @@ void ModelReader::check_keys(const toml::table& t, const std::string& prefix,
     if (std::find(allowed.begin(), allowed.end(), key) == allowed.end())
       fail(prefix.empty() ? key : prefix + "." + key,
            "unknown key (line " + std::to_string(kv.first.source().begin.line) + "; expected " +
-               (prefix.empty() ? "the tables [" + join(allowed) + "]" : join(allowed)) + ")");
+               (prefix.empty() ? "the tables [" + join(allowed) + "]" : join(allowed)) + ")" +
+               did_you_mean(key, allowed));
   }
 }
 

@@ -91,6 +91,8 @@ TEST(CliPropagate, BadUsageIsExitTwo) {
   expect_error(run_app("ordex-propagate", "--model " + data("cli_unknown_symbol.toml")), 2, "omeg");
   expect_error(run_app("ordex-propagate", "--model " + data("cli_bad_syntax.toml")), 2, "cli_bad_syntax.toml");
   expect_error(run_app("ordex-propagate", "--model " + model_path("mathieu.toml") + " --samples 1"), 2, "--samples");
+  // A tabulated model's bad CSV: the error names the CSV file and its line.
+  expect_error(run_app("ordex-propagate", "--model " + data("cli_table_bad.toml")), 2, "cli_table_bad.csv:4");
 }
 
 TEST(CliPropagate, NumericalFailureIsExitThreeWithNoOutputFile) {

@@ -298,3 +298,26 @@ TEST(PropagationOptions, ValidationNamesTheOption) {
   EXPECT_THROW(parse_method("rk4"), InputError);
   EXPECT_EQ(parse_method("magnus6"), Method::Magnus6);
 }
+
+TEST(PropagationEngine, ErrorEstimateIsHonestOverLongOscillatoryWindows) {
+  // Mathieu with q = 5 over ten periods, and a damped oscillator with a slow pump over a long
+  // window. The truth is a run at a tolerance 10^4 tighter (itself checked against scipy's
+  // characteristic values and Boost's Airy functions above); the estimate must be within 10x of
+  // the actual error, and not absurdly pessimistic either (at most 1e4x).
+  std::vector<FunctionSystem> systems{mathieu_system(3.1, 5.0)};
+  FunctionSystem damped({"x", "v"});
+  damped.set_A([](double t, MatrixRef m) { m << 0, 1, -(4.0 + std::sin(0.3 * t)), -0.05; });
+  systems.push_back(damped);
+  for (const auto& s : systems) {
+    const double t1 = 10 * M_PI;
+    Propagator truth(state_generator(s), opts(Method::Magnus6, 1e-13, 1e-15));
+    Eigen::MatrixXd ref = truth.transition(0, t1);
+    for (Method m : kAllMethods) {
+      Propagator p(state_generator(s), opts(m, 1e-8, 1e-10));
+      double err = max_abs(p.transition(0, t1) - ref);
+      double est = p.stats().error_estimate;
+      EXPECT_LE(err, 10 * est) << s.info().title << " " << method_name(m) << " est " << est;
+      EXPECT_LE(est, 1e4 * std::max(err, 1e-12)) << s.info().title << " " << method_name(m) << " err " << err;
+    }
+  }
+}

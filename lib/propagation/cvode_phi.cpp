@@ -29,10 +29,12 @@ class CvodeStepper : public StepperBase {
       Eigen::Map<const Eigen::MatrixXd> Y(y, n_, n_);
       Eigen::Map<const Eigen::MatrixXd> E(le, n_, n_);
       double now = norm_inf(Y);
-      // CVODE does not expose the step's map; scale the carried error by the growth of Phi.
+      // CVODE does not expose the step's map: scale the carried error by the growth of Phi and
+      // add the step's local error in absolute value (no cancellation between steps, since
+      // without the map the signs' travel through the dynamics is unknown).
       double growth = prev_norm_ > 0 ? now / prev_norm_ : 1.0;
       error_ *= growth;
-      error_ += E;
+      error_ += E.cwiseAbs();
       prev_norm_ = now;
       ++steps_;
     };

@@ -25,14 +25,17 @@ int main(int argc, char** argv) {
         ("hold", po::value(&hold)->value_name("zoh|linear")->default_value("zoh"),
          "the input between samples: zoh gives gamma (x_{k+1} = phi x_k + gamma u_k); linear gives "
          "gamma0 and gamma1 (x_{k+1} = phi x_k + gamma0 u_k + gamma1 u_{k+1})")
-        ("no-reuse", "integrate every interval even when the model looks time-invariant "
+        ("no-reuse", "integrate every interval even when every entry of the model is a constant "
                      "(otherwise equal-length intervals share one step)");
     po::variables_map vm;
     if (!ordex::parse_command_line(argc, argv, desc, vm, "ordex-discretize",
                                    "ordex-discretize --model PATH [--step H | --times PATH] [options]",
                                    "Writes the exact discrete-time model of x' = A(t) x + B(t) u on a grid "
                                    "of sample times, for an input held (zoh) or linear between samples: "
-                                   "phi and gamma of every interval, as JSON (--json) and CSV (--csv)."))
+                                   "phi and gamma of every interval, as JSON (--json: times, phi, gamma or "
+                                   "gamma0/gamma1, lists over the intervals) and CSV (--csv: one row an "
+                                   "interval, k,t_start,t_end,phi_1_1..phi_n_n,gamma_1_1..; docs/response.md). "
+                                   "Exit status: 0 done, 2 bad input, 3 numerical failure."))
       return 0;
     if (!step_text.empty() && !times_path.empty())
       throw ordex::InputError("--step and --times: give one of them, not both");

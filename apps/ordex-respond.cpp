@@ -41,14 +41,18 @@ int main(int argc, char** argv) {
          "exact: step matrices of the held-input block generator from the transition-matrix engine, "
          "shared by histories on one time grid; direct: CVODE on x' = A x + B u(t), a cross-check "
          "(--method adams or bdf picks its scheme)")
-        ("no-reuse", "integrate every interval even when the model looks time-invariant "
+        ("no-reuse", "integrate every interval even when every entry of the model is a constant "
                      "(otherwise equal-length intervals share one step)");
     po::variables_map vm;
     if (!ordex::parse_command_line(argc, argv, desc, vm, "ordex-respond",
                                    "ordex-respond --model PATH --input PATH [--input PATH ...] [options]",
                                    "Replays sampled input histories through x' = A(t) x + B(t) u and writes "
-                                   "x(t) and y = C x + D u at the output times. A model without inputs gives "
-                                   "its free response over the window (--samples times)."))
+                                   "x(t) and y = C x + D u at the output times. The window defaults to the "
+                                   "model's [window], else to the input's time span; it must lie inside the "
+                                   "samples. --csv writes t,<states>,<outputs>; with several --input it names "
+                                   "a folder that gets one STEM.csv per input file. A model without inputs "
+                                   "gives its free response over the window (--samples times). Exit status: 0 "
+                                   "done, 2 bad input, 3 numerical failure. Details: docs/response.md."))
       return 0;
 
     ordex::AppSetup s = ordex::setup_from_common(c, false);

@@ -335,3 +335,18 @@ TEST(ResponseApps, HelpExplainsEveryOption) {
   for (const char* opt : {"--step", "--times", "--hold", "--no-reuse", "--csv", "--json"})
     EXPECT_NE(d.out.find(opt), std::string::npos) << opt;
 }
+
+TEST(RespondApp, OverflowIsANumericalFailure) {
+  const std::string in = temp_dir() + "/blowup_in.csv";
+  write_file(in, "t,u\n0,1\n5,1\n10,1\n");
+  const std::string csv = temp_dir() + "/blowup_out.csv";
+  for (std::string path : {"exact", "direct"}) {
+    auto r = run_app("ordex-respond", "--model " + kData + "response_blowup.toml --input " + in + " --path " + path +
+                                          " --x0 1 --csv " + csv);
+    EXPECT_EQ(r.exit_code, 3) << path << ": " << r.err;
+    EXPECT_EQ(ordex_test::line_count(r.err), 1) << r.err;
+    EXPECT_EQ(r.err.rfind("ordex-respond: error:", 0), 0u) << r.err;
+    EXPECT_NE(r.err.find("t = "), std::string::npos) << r.err;  // says where it failed
+    EXPECT_FALSE(file_exists(csv));
+  }
+}

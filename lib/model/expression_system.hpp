@@ -64,6 +64,8 @@ class ExpressionSystem : public System {
   void D(double t, MatrixRef out) const override;
   /// Recompiles the expressions against the copy's own variables (the tables are shared).
   std::unique_ptr<System> clone() const override;
+  /// No matrix entry depends on t (directly, through [define] or through a table).
+  bool time_invariant() const override { return time_varying_entries() == 0; }
 
   using System::A;
   using System::B;

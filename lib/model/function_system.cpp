@@ -57,6 +57,11 @@ void FunctionSystem::D(double t, MatrixRef out) const {
   else out.setZero();
 }
 
+FunctionSystem& FunctionSystem::set_time_invariant(bool invariant) {
+  time_invariant_ = invariant;
+  return *this;
+}
+
 std::unique_ptr<System> FunctionSystem::clone() const {
   return std::make_unique<FunctionSystem>(*this);
 }

@@ -23,6 +23,9 @@ class FunctionSystem : public System {
   FunctionSystem& set_period(double period);
   FunctionSystem& set_breakpoints(std::vector<double> breakpoints);
   FunctionSystem& set_window(double from, double to);
+  /// Declares that A, B, C, D do not depend on t (default: not declared).
+  FunctionSystem& set_time_invariant(bool invariant);
+  bool time_invariant() const override { return time_invariant_; }
 
   void A(double t, MatrixRef out) const override;
   void B(double t, MatrixRef out) const override;
@@ -37,6 +40,7 @@ class FunctionSystem : public System {
 
  private:
   Fill a_, b_, c_, d_;
+  bool time_invariant_ = false;
 };
 
 }  // namespace ordex

@@ -48,6 +48,11 @@ class System {
   /// An independent copy for use on another thread.
   virtual std::unique_ptr<System> clone() const = 0;
 
+  /// True only when A, B, C and D are known not to depend on t at all (a model whose every
+  /// entry is a constant). Modules may then reuse one step for intervals of equal length.
+  /// False means "may vary", never "varies".
+  virtual bool time_invariant() const { return false; }
+
   // Convenience forms that allocate (not for inner loops).
   Eigen::MatrixXd A(double t) const;
   Eigen::MatrixXd B(double t) const;

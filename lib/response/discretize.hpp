@@ -23,7 +23,7 @@ struct DiscretizeOptions {
   /// Engine options (method, tolerances); default PropagationOptions{}.
   PropagationOptions propagation;
   /// Reuse the step of an equal-length interval when the model looks time-invariant
-  /// (looks_time_invariant); default true.
+  /// (known_time_invariant); default true.
   bool reuse_time_invariant = true;
   /// Throws InputError naming the option when a field is out of range.
   void validate() const;

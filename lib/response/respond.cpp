@@ -1,12 +1,15 @@
 #include "response/respond.hpp"
 
 #include <algorithm>
+#include <charconv>
 #include <chrono>
 #include <cmath>
+#include <iterator>
 #include <sstream>
 
 #include "io/csv.hpp"
 #include "io/errors.hpp"
+#include "io/output_file.hpp"
 #include "response/direct_path.hpp"
 #include "response/step_matrices.hpp"
 
@@ -40,12 +43,13 @@ RunPlan plan_run(const InputHistory& h, const RespondOptions& o) {
       if (t > p.t0 && t < p.t1) outputs.push_back(t);
     outputs.push_back(p.t1);
   }
-  p.knots = outputs;
-  p.knots.push_back(p.t0);
-  p.knots.push_back(p.t1);
+  // Both lists are sorted: a merge (linear time) instead of a sort.
+  std::vector<double> inner{p.t0};
   for (double t : h.times)
-    if (t > p.t0 && t < p.t1) p.knots.push_back(t);
-  std::sort(p.knots.begin(), p.knots.end());
+    if (t > p.t0 && t < p.t1) inner.push_back(t);
+  inner.push_back(p.t1);
+  p.knots.reserve(inner.size() + outputs.size());
+  std::merge(inner.begin(), inner.end(), outputs.begin(), outputs.end(), std::back_inserter(p.knots));
   p.knots.erase(std::unique(p.knots.begin(), p.knots.end()), p.knots.end());
   for (double t : outputs)
     p.output_knots.push_back(
@@ -53,52 +57,61 @@ RunPlan plan_run(const InputHistory& h, const RespondOptions& o) {
   return p;
 }
 
-// y = C x + D u at the output times of RUN, from its states. With CONSTANT the matrices of t0
-// serve every time.
-void fill_outputs(const System& sys, const InputHistory& h, Hold hold, bool constant, RunResult& r) {
+// y = C x + D u at the output times of the runs RS (histories HS), which share their output
+// times: C(t) and D(t) are evaluated once per time for all of them, and with CONSTANT once.
+void fill_outputs(const System& sys, const std::vector<const InputHistory*>& hs, Hold hold, bool constant,
+                  const std::vector<RunResult*>& rs) {
   const int n = sys.states(), m = sys.inputs(), p = sys.outputs();
-  const Eigen::Index N = static_cast<Eigen::Index>(r.times.size());
-  r.outputs.resize(N, p);
+  const RunResult& first = *rs.front();
+  const Eigen::Index N = static_cast<Eigen::Index>(first.times.size());
   Eigen::MatrixXd C(p, n), D(p, m);
   Eigen::VectorXd u(m);
   auto eval = [&](double t) {
     sys.C(t, C);
     if (m > 0) sys.D(t, D);
   };
-  if (p > 0) {
-    if (constant) eval(r.t0);
-    for (Eigen::Index k = 0; k < N; ++k) {
-      const double t = r.times[static_cast<std::size_t>(k)];
-      if (!constant) eval(t);
+  for (RunResult* r : rs) {
+    r->outputs.resize(N, p);
+    r->y_final.setZero(p);
+  }
+  if (p == 0) return;
+  if (constant) eval(first.t0);
+  for (Eigen::Index k = 0; k < N; ++k) {
+    const double t = first.times[static_cast<std::size_t>(k)];
+    if (!constant) eval(t);
+    for (std::size_t i = 0; i < rs.size(); ++i) {
+      RunResult& r = *rs[i];
       r.outputs.row(k).noalias() = r.states.row(k) * C.transpose();
       if (m > 0) {
-        input_at(h, hold, t, u);
+        input_at(*hs[i], hold, t, u);
         r.outputs.row(k).noalias() += u.transpose() * D.transpose();
       }
     }
   }
-  r.y_final.setZero(p);
-  if (p > 0) {
-    eval(r.t1);
+  eval(first.t1);
+  for (std::size_t i = 0; i < rs.size(); ++i) {
+    RunResult& r = *rs[i];
     r.y_final = C * r.x_final;
     if (m > 0) {
-      input_at(h, hold, r.t1, u);
+      input_at(*hs[i], hold, r.t1, u);
       r.y_final += D * u;
     }
   }
 }
 
-RunResult result_from_states(const RunPlan& plan, const Eigen::MatrixXd& X) {
+// XT: n x knots, column k the state at knot k.
+RunResult result_from_states(const RunPlan& plan, const Eigen::MatrixXd& XT) {
   RunResult r;
   r.source = plan.history->source;
   r.t0 = plan.t0;
   r.t1 = plan.t1;
-  r.states.resize(static_cast<Eigen::Index>(plan.output_knots.size()), X.cols());
+  r.states.resize(static_cast<Eigen::Index>(plan.output_knots.size()), XT.rows());
+  r.times.reserve(plan.output_knots.size());
   for (std::size_t i = 0; i < plan.output_knots.size(); ++i) {
     r.times.push_back(plan.knots[plan.output_knots[i]]);
-    r.states.row(static_cast<Eigen::Index>(i)) = X.row(static_cast<Eigen::Index>(plan.output_knots[i]));
+    r.states.row(static_cast<Eigen::Index>(i)) = XT.col(static_cast<Eigen::Index>(plan.output_knots[i])).transpose();
   }
-  r.x_final = X.row(X.rows() - 1).transpose();
+  r.x_final = XT.col(XT.cols() - 1);
   return r;
 }
 
@@ -176,7 +189,8 @@ RespondReport respond(const System& sys, const std::vector<InputHistory>& histor
   for (const RunPlan& p : plans) total += p.knots.size() - 1;
   auto report_progress = [&](std::size_t intervals) {
     done += intervals;
-    if (o.progress) o.progress(static_cast<double>(done) / static_cast<double>(std::max<std::size_t>(total, 1)));
+    if (o.progress)
+      o.progress(std::min(1.0, static_cast<double>(done) / static_cast<double>(std::max<std::size_t>(total, 1))));
   };
 
   if (o.path == ResponsePath::Direct) {
@@ -189,51 +203,68 @@ RespondReport respond(const System& sys, const std::vector<InputHistory>& histor
     oo.max_step = o.propagation.max_step;
     oo.max_steps = o.propagation.max_steps;
     rep.method = oo.scheme == OdeScheme::Adams ? Method::Adams : Method::Bdf;
-    const bool constant = o.reuse_time_invariant && looks_time_invariant(sys, plans[0].t0, plans[0].t1, plans[0].knots);
     for (std::size_t i = 0; i < plans.size(); ++i) {
       const RunPlan& p = plans[i];
       Eigen::MatrixXd X = direct_states(sys, *p.history, o.hold, p.knots, x0, oo, rep.direct);
-      rep.runs[i] = result_from_states(p, X);
-      fill_outputs(sys, *p.history, o.hold, constant && plans[i].knots == plans[0].knots, rep.runs[i]);
+      rep.runs[i] = result_from_states(p, X.transpose());
       report_progress(p.knots.size() - 1);
+    }
+    for (const auto& g : groups) {
+      const RunPlan& p = plans[g.front()];
+      const bool constant = o.reuse_time_invariant && known_time_invariant(sys, p.t0, p.t1);
+      std::vector<const InputHistory*> hs;
+      std::vector<RunResult*> rs;
+      for (std::size_t i : g) {
+        hs.push_back(plans[i].history);
+        rs.push_back(&rep.runs[i]);
+      }
+      fill_outputs(sys, hs, o.hold, constant, rs);
     }
   } else {
     StepMatrixBuilder builder(sys, o.hold, o.propagation, o.reuse_time_invariant);
     for (const auto& g : groups) {
       const std::vector<double>& knots = plans[g.front()].knots;
       const std::size_t K = knots.size();
-      // States of every history of the group at every knot, advanced together.
-      std::vector<Eigen::MatrixXd> X(g.size(), Eigen::MatrixXd(static_cast<Eigen::Index>(K), n));
+      // States of every history of the group at every knot (n x K each), advanced together:
+      // the R histories' states are the columns of one n x R matrix, so a step is three
+      // matrix products instead of 3R matrix-vector products.
+      const Eigen::Index R = static_cast<Eigen::Index>(g.size());
+      std::vector<Eigen::MatrixXd> XT(g.size(), Eigen::MatrixXd(n, static_cast<Eigen::Index>(K)));
       std::vector<std::size_t> interval(g.size(), 0);  // each history's sample interval
-      Eigen::VectorXd x(n), ua(m), ub(m);
-      for (auto& Xr : X) Xr.row(0) = x0.transpose();
+      Eigen::MatrixXd Xa = x0.replicate(1, R), Xb(n, R), Ua(m, R), Ub(m, R);
+      for (auto& x : XT) x.col(0) = x0;
       builder.for_each_step(knots, [&](std::size_t k, const StepMatrices& st) {
         const double a = knots[k], b = knots[k + 1];
-        for (std::size_t r = 0; r < g.size(); ++r) {
-          const InputHistory& h = *plans[g[r]].history;
-          std::size_t& j = interval[r];
+        for (Eigen::Index r = 0; r < R; ++r) {
+          const InputHistory& h = *plans[g[static_cast<std::size_t>(r)]].history;
+          std::size_t& j = interval[static_cast<std::size_t>(r)];
           while (j + 2 < h.times.size() && h.times[j + 1] <= a) ++j;
-          x.noalias() = st.phi * X[r].row(static_cast<Eigen::Index>(k)).transpose();
           if (m > 0) {
-            input_on_interval(h, o.hold, j, a, ua);
-            x.noalias() += st.gamma0 * ua;
-            if (o.hold == Hold::Linear) {
-              input_on_interval(h, o.hold, j, b, ub);
-              x.noalias() += st.gamma1 * ub;
-            }
+            input_on_interval(h, o.hold, j, a, Ua.col(r));
+            if (o.hold == Hold::Linear) input_on_interval(h, o.hold, j, b, Ub.col(r));
           }
-          if (!x.allFinite())
-            throw NumericalError(h.source + ": the state is not finite at t = " + format_number(b));
-          X[r].row(static_cast<Eigen::Index>(k + 1)) = x.transpose();
         }
+        Xb.noalias() = st.phi * Xa;
+        if (m > 0) {
+          Xb.noalias() += st.gamma0 * Ua;
+          if (o.hold == Hold::Linear) Xb.noalias() += st.gamma1 * Ub;
+        }
+        if (!Xb.allFinite())
+          throw NumericalError("the state is not finite at t = " + format_number(b) + " (" +
+                               plans[g.front()].history->source + (R > 1 ? " and others" : "") + ")");
+        for (Eigen::Index r = 0; r < R; ++r) XT[static_cast<std::size_t>(r)].col(static_cast<Eigen::Index>(k + 1)) = Xb.col(r);
+        Xa.swap(Xb);
         if ((k & 1023) == 1023) report_progress(1024 * g.size());
       });
       done += ((K - 1) % 1024) * g.size();
+      std::vector<const InputHistory*> hs;
+      std::vector<RunResult*> rs;
       for (std::size_t r = 0; r < g.size(); ++r) {
-        const RunPlan& p = plans[g[r]];
-        rep.runs[g[r]] = result_from_states(p, X[r]);
-        fill_outputs(sys, *p.history, o.hold, builder.time_invariant(), rep.runs[g[r]]);
+        rep.runs[g[r]] = result_from_states(plans[g[r]], XT[r]);
+        hs.push_back(plans[g[r]].history);
+        rs.push_back(&rep.runs[g[r]]);
       }
+      fill_outputs(sys, hs, o.hold, builder.time_invariant(), rs);
       rep.time_invariant = rep.time_invariant || builder.time_invariant();
     }
     if (o.progress) o.progress(1.0);
@@ -292,16 +323,31 @@ Json respond_report_json(const RespondReport& rep, const System& sys) {
 }
 
 void write_run_csv(const std::string& path, const System& sys, const RunResult& run) {
-  std::vector<std::string> header{"t"};
-  for (const auto& s : sys.info().state_names) header.push_back(s);
-  for (const auto& s : sys.info().output_names) header.push_back(s);
-  CsvWriter w(path, header);
-  Eigen::VectorXd row(run.states.cols() + run.outputs.cols());
+  // Numbers in the shortest form that reads back to the same double (std::to_chars), which
+  // is full precision and several times faster than stream formatting on long runs.
+  OutputFile out(path);
+  std::string line = "t";
+  for (const auto& s : sys.info().state_names) line += "," + s;
+  for (const auto& s : sys.info().output_names) line += "," + s;
+  line += "\n";
+  std::ostream& o = out.stream();
+  o << line;
+  char buf[32];
+  auto put = [&](double v, bool first) {
+    if (!first) line.push_back(',');
+    auto res = std::to_chars(buf, buf + sizeof buf, v);
+    line.append(buf, res.ptr);
+  };
   for (Eigen::Index k = 0; k < run.states.rows(); ++k) {
-    row << run.states.row(k).transpose(), run.outputs.row(k).transpose();
-    w.row(run.times[static_cast<std::size_t>(k)], row);
+    line.clear();
+    put(run.times[static_cast<std::size_t>(k)], true);
+    for (Eigen::Index j = 0; j < run.states.cols(); ++j) put(run.states(k, j), false);
+    for (Eigen::Index j = 0; j < run.outputs.cols(); ++j) put(run.outputs(k, j), false);
+    line.push_back('\n');
+    o.write(line.data(), static_cast<std::streamsize>(line.size()));
   }
-  w.commit();
+  if (!o) throw InputError(path + ": writing failed");
+  out.commit();
 }
 
 std::string respond_report_text(const RespondReport& rep, const System& sys) {
@@ -314,10 +360,13 @@ std::string respond_report_text(const RespondReport& rep, const System& sys) {
     s << ", " << rep.computed_steps << " interval steps integrated" << (rep.reused_steps ? ", " + std::to_string(rep.reused_steps) + " reused (time-invariant)" : "")
       << " on " << rep.grids << (rep.grids == 1 ? " grid" : " grids");
   s << ", " << rep.seconds << " s\n";
+  // At most the first 8 entries: the files have the rest.
   auto vec = [&](const Eigen::VectorXd& v, const std::vector<std::string>& names) {
     std::ostringstream o;
     o.precision(6);
-    for (Eigen::Index i = 0; i < v.size(); ++i) o << (i ? "  " : "") << names[static_cast<std::size_t>(i)] << "=" << v(i);
+    const Eigen::Index shown = std::min<Eigen::Index>(v.size(), 8);
+    for (Eigen::Index i = 0; i < shown; ++i) o << (i ? "  " : "") << names[static_cast<std::size_t>(i)] << "=" << v(i);
+    if (shown < v.size()) o << "  ... (" << v.size() - shown << " more)";
     return o.str();
   };
   for (std::size_t i = 0; i < rep.runs.size(); ++i) {

@@ -43,9 +43,9 @@ struct RespondOptions {
   /// Scheme of the direct path; default Adams (non-stiff). Bdf uses Newton with the exact
   /// n x n factorization of I - gamma A(t) as preconditioner.
   OdeScheme direct_scheme = OdeScheme::Adams;
-  /// When A, B, C, D look time-invariant on a grid (looks_time_invariant), intervals of equal
-  /// length share one step computation; default true. Turn off for a model whose matrices vary
-  /// only between the probe times.
+  /// When the model is known to be time-invariant (known_time_invariant: every entry a
+  /// constant, no breakpoints), intervals of equal length share one step computation; default
+  /// true.
   bool reuse_time_invariant = true;
   /// Window [t0, t1] with t0 < t1; empty (default) means each history's own time span. It must
   /// lie within the samples of every history.

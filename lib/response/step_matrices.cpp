@@ -13,7 +13,9 @@ Generator held_input_generator(const System& sys, Hold hold) {
   Generator g;
   g.dim = m == 0 ? n : (hold == Hold::Zoh ? n + m : n + 2 * m);
   g.breakpoints = sys.info().breakpoints;
-  g.label = m == 0 ? "A(t)" : (hold == Hold::Zoh ? "[[A, B], [0, 0]]" : "[[A, B, 0], [0, 0, I], [0, 0, 0]]");
+  g.label = m == 0 ? "A(t)"
+                   : (hold == Hold::Zoh ? "held-input generator [[A, B], [0, 0]]"
+                                        : "linear-input generator [[A, B, 0], [0, 0, I], [0, 0, 0]]");
   const System* s = &sys;
   g.eval = [s, n, m, hold](double t, MatrixRef out) {
     out.setZero();
@@ -40,36 +42,8 @@ StepMatrices step_from_transition(const Eigen::MatrixXd& S, int n, int m, Hold h
   return st;
 }
 
-bool looks_time_invariant(const System& sys, double t0, double t1, const std::vector<double>& knots) {
-  if (!sys.breakpoints_between(t0, t1).empty()) return false;
-  const int n = sys.states(), m = sys.inputs(), p = sys.outputs();
-  Eigen::MatrixXd A0(n, n), A(n, n), B0(n, m), B(n, m), C0(p, n), C(p, n), D0(p, m), D(p, m);
-  auto eval = [&](double t, Eigen::MatrixXd& a, Eigen::MatrixXd& b, Eigen::MatrixXd& c, Eigen::MatrixXd& d) {
-    sys.A(t, a);
-    if (m > 0) sys.B(t, b);
-    if (p > 0) sys.C(t, c);
-    if (m > 0 && p > 0) sys.D(t, d);
-  };
-  eval(t0, A0, B0, C0, D0);
-  std::vector<double> probes;
-  // Up to 32 of the knots, spread evenly, and 32 times that no grid is likely to hit
-  // (fractions from the golden-ratio sequence).
-  const std::size_t stride = std::max<std::size_t>(1, knots.size() / 32);
-  for (std::size_t k = 0; k < knots.size(); k += stride) probes.push_back(knots[k]);
-  if (!knots.empty()) probes.push_back(knots.back());
-  probes.push_back(t1);
-  double frac = 0.5;
-  for (int k = 0; k < 32; ++k) {
-    frac = std::fmod(frac + 0.6180339887498949, 1.0);
-    probes.push_back(t0 + frac * (t1 - t0));
-  }
-  for (double t : probes) {
-    eval(t, A, B, C, D);
-    // Exact equality on purpose: an expression of t that is really constant evaluates to the
-    // same double every time.
-    if (A != A0 || (m > 0 && B != B0) || (p > 0 && C != C0) || (m > 0 && p > 0 && D != D0)) return false;
-  }
-  return true;
+bool known_time_invariant(const System& sys, double t0, double t1) {
+  return sys.time_invariant() && sys.breakpoints_between(t0, t1).empty();
 }
 
 StepMatrixBuilder::StepMatrixBuilder(const System& sys, Hold hold, PropagationOptions options, bool reuse)
@@ -92,7 +66,7 @@ void StepMatrixBuilder::for_each_step(const std::vector<double>& knots,
   for (std::size_t k = 1; k < knots.size(); ++k)
     if (!(knots[k] > knots[k - 1])) throw InputError("step grid: times must be strictly increasing");
   const int n = sys_.states(), m = sys_.inputs();
-  time_invariant_ = reuse_ && looks_time_invariant(sys_, knots.front(), knots.back(), knots);
+  time_invariant_ = reuse_ && known_time_invariant(sys_, knots.front(), knots.back());
   Propagator propagator(generator_, options_);
   if (!time_invariant_) {
     propagator.for_each_interval(knots, [&](std::size_t k, const Eigen::MatrixXd& S) {

@@ -37,11 +37,10 @@ Generator held_input_generator(const System& sys, Hold hold);
 /// Splits the transition matrix S of held_input_generator over [a, b] into the step matrices.
 StepMatrices step_from_transition(const Eigen::MatrixXd& S, int n, int m, Hold hold, double a, double b);
 
-/// True when A, B, C and D of SYS evaluate to identical numbers at PROBE times spread over
-/// [t0, t1] (the knots given plus fixed pseudo-random times) and the model declares no
-/// breakpoints in the window. A heuristic: a model whose matrices vary only between all the
-/// probes would be misjudged, which is why callers can turn its use off.
-bool looks_time_invariant(const System& sys, double t0, double t1, const std::vector<double>& knots);
+/// True when the model is known not to depend on t (System::time_invariant: every entry a
+/// constant) and declares no breakpoints in [t0, t1]: then intervals of equal length share one
+/// step. Certain, not sampled: a model whose entries are expressions of t is never reused.
+bool known_time_invariant(const System& sys, double t0, double t1);
 
 /// Computes step matrices on grids. Each grid gets a fresh Propagator, so a grid's steps do not
 /// depend on which grids came before (a batch gives exactly the results of single runs).

@@ -24,21 +24,73 @@ const double kTheta13 = 5.371920351148152e0;
 
 }  // namespace
 
-void MatrixExponential::compute(const Eigen::MatrixXd& a, Eigen::MatrixXd& out) {
+namespace {
+
+double norm1(const Eigen::MatrixXd& m) { return m.cwiseAbs().colwise().sum().maxCoeff(); }
+
+// Diagonal similarity by powers of two (Parlett & Reinsch, Numer. Math. 13 (1969) 293-304, the
+// balancing of LAPACK's dgebal without permutations): B = D^-1 A D with rows and columns of
+// comparable size, so exp(A) = D exp(B) D^-1 exactly in floating point. Models in physical
+// units (km and s, say) have entries of very different sizes; balancing brings ||h A|| from
+// hundreds down to about one, which saves the exponential most of its squarings.
+void balance(Eigen::MatrixXd& a, Eigen::VectorXd& scale) {
   const Eigen::Index n = a.rows();
-  const double norm1 = a.cwiseAbs().colwise().sum().maxCoeff();
+  scale.setOnes(n);
+  for (int sweep = 0; sweep < 20; ++sweep) {
+    bool done = true;
+    for (Eigen::Index i = 0; i < n; ++i) {
+      double c = a.col(i).cwiseAbs().sum() - std::abs(a(i, i));
+      double r = a.row(i).cwiseAbs().sum() - std::abs(a(i, i));
+      if (c == 0 || r == 0) continue;
+      const double s = c + r;
+      double f = 1, g = r / 2;
+      while (c < g && f < 1e150) { f *= 2; c *= 4; }
+      g = r * 2;
+      while (c > g && f > 1e-150) { f /= 2; c /= 4; }
+      if ((c + r) / f < 0.95 * s) {
+        done = false;
+        scale(i) *= f;
+        a.row(i) /= f;
+        a.col(i) *= f;
+      }
+    }
+    if (done) break;
+  }
+}
+
+}  // namespace
+
+void MatrixExponential::compute(const Eigen::MatrixXd& a, Eigen::MatrixXd& out) {
+  a_ = a;
+  const double before = norm1(a_);
+  if (a_.rows() > 1 && before > kTheta3) {
+    balance(a_, scale_);
+    if (norm1(a_) < before) {
+      pade(out);
+      // exp(A) = D exp(B) D^-1
+      out.array().colwise() *= scale_.array();
+      out.array().rowwise() /= scale_.transpose().array();
+      return;
+    }
+    a_ = a;
+  }
+  pade(out);
+}
+
+void MatrixExponential::pade(Eigen::MatrixXd& out) {
+  const Eigen::Index n = a_.rows();
+  const double norm1_a = norm1(a_);
   int squarings = 0;
   const double* b = nullptr;
   int degree = 13;
-  if (norm1 <= kTheta3) { b = kB3; degree = 3; }
-  else if (norm1 <= kTheta5) { b = kB5; degree = 5; }
-  else if (norm1 <= kTheta7) { b = kB7; degree = 7; }
-  else if (norm1 <= kTheta9) { b = kB9; degree = 9; }
+  if (norm1_a <= kTheta3) { b = kB3; degree = 3; }
+  else if (norm1_a <= kTheta5) { b = kB5; degree = 5; }
+  else if (norm1_a <= kTheta7) { b = kB7; degree = 7; }
+  else if (norm1_a <= kTheta9) { b = kB9; degree = 9; }
   else {
     b = kB13;
-    squarings = std::max(0, static_cast<int>(std::ceil(std::log2(norm1 / kTheta13))));
+    squarings = std::max(0, static_cast<int>(std::ceil(std::log2(norm1_a / kTheta13))));
   }
-  a_ = a;
   if (squarings > 0) a_ *= std::ldexp(1.0, -squarings);
   a2_.noalias() = a_ * a_;
   const auto I = Eigen::MatrixXd::Identity(n, n);
@@ -56,10 +108,12 @@ void MatrixExponential::compute(const Eigen::MatrixXd& a, Eigen::MatrixXd& out) 
     // U = A * sum b_{2k+1} A^{2k}, V = sum b_{2k} A^{2k}, with powers built up as needed.
     p_ = b[1] * I;
     v_ = b[0] * I;
-    tmp_ = I;  // A^{2k}
+    tmp_ = a2_;  // A^{2k}
     for (int k = 1; 2 * k <= degree; ++k) {
-      q_.noalias() = tmp_ * a2_;
-      tmp_.swap(q_);
+      if (k > 1) {
+        q_.noalias() = tmp_ * a2_;
+        tmp_.swap(q_);
+      }
       v_ += b[2 * k] * tmp_;
       if (2 * k + 1 <= degree) p_ += b[2 * k + 1] * tmp_;
     }

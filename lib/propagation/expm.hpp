@@ -12,7 +12,11 @@ class MatrixExponential {
   void compute(const Eigen::MatrixXd& a, Eigen::MatrixXd& out);
 
  private:
+  /// Pade and squaring on a_ (already balanced), result into OUT.
+  void pade(Eigen::MatrixXd& out);
+
   Eigen::MatrixXd a_, a2_, a4_, a6_, u_, v_, tmp_, p_, q_;
+  Eigen::VectorXd scale_;
   Eigen::PartialPivLU<Eigen::MatrixXd> lu_;
 };
 

@@ -8,6 +8,7 @@ Generator state_generator(const System& sys) {
   const System* s = &sys;
   g.eval = [s](double t, MatrixRef out) { s->A(t, out); };
   g.breakpoints = sys.info().breakpoints;
+  g.period = sys.info().period;
   g.label = "A(t)";
   return g;
 }

@@ -32,6 +32,10 @@ struct PropagationOptions {
   double max_step = 0.0;
   /// Largest number of steps in one call before it fails as a numerical error; default 10^7.
   long max_steps = 10000000;
+  /// For a periodic generator and a window of two periods or more, compute Phi(t1, t0) as
+  /// Phi(t0 + r, t0) M^k from the monodromy matrix M = Phi(t0 + T, t0) (Floquet): one period is
+  /// integrated instead of k, and the result is more accurate too. Default true.
+  bool use_period = true;
   /// Called now and then with the fraction of the window done, for progress reports; may be
   /// empty (default).
   std::function<void(double fraction)> progress;

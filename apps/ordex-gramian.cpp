@@ -144,7 +144,7 @@ int main(int argc, char** argv) {
       rep.result.t1 = setup.t1;
       rep.result.route = "block";
       rep.result.gramian = gopt.kind == GramianKind::Reachability ? sweep->compose_reachability(0, sweep->intervals())
-                                                                  : sweep->cum_ctrl.back();
+                                                                  : sweep->running_valid_to == 0 ? sweep->cum_ctrl.back() : sweep->compose_controllability(0, sweep->intervals());
       rep.result.stats = sweep->stats;
       rep.method = method_name(sweep->stats.method);
     } else {

@@ -25,7 +25,7 @@ int main(int argc, char** argv) {
   return ordex::run_app("ordex-regulate", [&] {
     namespace po = boost::program_options;
     ordex::CommonOptions common;
-    std::string weights_path, solver = "hamiltonian", x0_text, p_csv, response_csv;
+    std::string weights_path, solver = "ode", x0_text, p_csv, response_csv;
     int dense = 2000;
     po::options_description desc("Options");
     ordex::add_common_options(desc, common, "equally spaced times of the gain schedule (CSV rows), ends included");
@@ -33,9 +33,9 @@ int main(int argc, char** argv) {
         ("weights", po::value(&weights_path)->value_name("PATH"),
          "weights file (TOML) with Q, R, Qf and optional N: matrices as lists of rows, or flat lists "
          "meaning diagonals; entries numbers or expressions of t. Default Q = I, R = I, Qf = 0, N = 0")
-        ("solver", po::value(&solver)->value_name("NAME")->default_value("hamiltonian"),
-         "hamiltonian: the engine propagates the Hamiltonian one interval at a time (stepwise "
-         "Davison-Maki); ode: the Riccati equation with CVODE BDF on the n(n+1)/2 entries of P")
+        ("solver", po::value(&solver)->value_name("NAME")->default_value("ode"),
+         "ode: the Riccati equation with CVODE BDF on the n(n+1)/2 entries of P; hamiltonian: the "
+         "engine (--method) propagates the Hamiltonian one interval at a time (stepwise Davison-Maki)")
         ("x0", po::value(&x0_text)->value_name("V"),
          "initial state (comma-separated): simulate the closed loop u = -K(t)x and report the "
          "predicted and simulated cost and the final state")

@@ -145,3 +145,25 @@ TEST(GramianConstant, LyapunovSolverSatisfiesItsEquation) {
 }
 
 }  // namespace
+
+namespace {
+
+TEST(GramianConstant, StiffDiagonalPairOnOneLongInterval) {
+  // A = diag(-1, -40, -900), B = [1; 2; 3] over [0, 5]: the -A' block grows like exp(900 t), so
+  // the sweep must split the interval itself. Closed form for diagonal A:
+  // W_r(i, j) = b_i b_j (1 - exp((l_i + l_j) T)) / -(l_i + l_j).
+  const Eigen::Vector3d l(-1, -40, -900), bv(1, 2, 3);
+  ordex::FunctionSystem sys({"a", "b", "c"});
+  sys.set_A([l](double, ordex::MatrixRef o) { o = l.asDiagonal(); });
+  sys.set_B({"u"}, [bv](double, ordex::MatrixRef o) { o = bv; });
+  const double T = 5;
+  Eigen::Matrix3d expected;
+  for (int i = 0; i < 3; ++i)
+    for (int j = 0; j < 3; ++j) expected(i, j) = bv[i] * bv[j] * -std::expm1((l[i] + l[j]) * T) / -(l[i] + l[j]);
+  auto r = ordex::compute_gramian(sys, 0, T, options(GramianKind::Reachability, GramianRoute::Block));
+  EXPECT_LT(rel_diff(r.gramian, expected), 1e-9);
+  auto bdf = ordex::compute_gramian(sys, 0, T, options(GramianKind::Reachability, GramianRoute::Lyapunov, ordex::Method::Bdf));
+  EXPECT_LT(rel_diff(bdf.gramian, expected), 1e-6);
+}
+
+}  // namespace

@@ -70,7 +70,7 @@ TEST(RegulateApp, ScalarSummaryMatchesClosedForm) {
   EXPECT_GT(xf, 0);
   EXPECT_LT(xf, 2 * std::exp(-2.0));
   EXPECT_NEAR(j["closed_loop_phi"][0][0].get<double>() * 2, xf, 1e-7 * xf);
-  EXPECT_EQ(j["solver"], "hamiltonian");
+  EXPECT_EQ(j["solver"], "ode");  // the default
   EXPECT_EQ(j["app"], "ordex-regulate");
   EXPECT_FALSE(j.contains("floquet"));  // not a periodic model
   EXPECT_NE(j["caution"].get<std::string>().find("Caution"), std::string::npos);

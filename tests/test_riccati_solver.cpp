@@ -97,8 +97,9 @@ TEST(RiccatiLyapunov, SolvesAgainstKroneckerForm) {
   Eigen::MatrixXd F = Eigen::MatrixXd::Random(n, n) + 0.5 * Eigen::MatrixXd::Identity(n, n);
   Eigen::MatrixXd C = Eigen::MatrixXd::Random(n, n);
   C = (C + C.transpose()).eval();
-  LyapunovSolver solver;
-  solver.factor(F);
+  SchurLyapunovSolver solver;
+  solver.factor(F);  // shift 0 + 1 F
+  solver.set_shift(0.0, 1.0);
   Eigen::MatrixXd X;
   solver.solve(C, X);
   // (F' X)_{ab} = sum_c F_{ca} X_{cb}, (X F)_{ab} = sum_d X_{ad} F_{db}; vec index a + n b.
@@ -112,6 +113,11 @@ TEST(RiccatiLyapunov, SolvesAgainstKroneckerForm) {
   Eigen::MatrixXd Xref = Eigen::Map<Eigen::MatrixXd>(vecX.data(), n, n);
   EXPECT_LT(rel_err(X, Xref), 1e-12);
   EXPECT_LT((X - X.transpose()).cwiseAbs().maxCoeff(), 1e-12 * X.cwiseAbs().maxCoeff());
+  // The shifted form (I/2 + 0.3 F)' X + X (I/2 + 0.3 F) = C from the same factorization.
+  solver.set_shift(0.5, 0.3);
+  solver.solve(C, X);
+  Eigen::MatrixXd G = 0.5 * Eigen::MatrixXd::Identity(n, n) + 0.3 * F;
+  EXPECT_LT((G.transpose() * X + X * G - C).cwiseAbs().maxCoeff(), 1e-12 * C.cwiseAbs().maxCoeff());
 }
 
 class RiccatiBothSolvers : public ::testing::TestWithParam<RiccatiSolver> {};

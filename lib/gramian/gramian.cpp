@@ -113,7 +113,8 @@ GramianResult compute_gramian(const System& sys, double t0, double t1, const Gra
       throw InputError("Gramian grid: must run from --from to --to");
     GramianSweep sw = sweep_gramians(sys, options.kind, times, options.propagation, options.threads);
     r.gramian = options.kind == GramianKind::Reachability ? sw.compose_reachability(0, sw.intervals())
-                                                          : sw.cum_ctrl.back();
+                : sw.running_valid_to == 0                  ? sw.cum_ctrl.back()
+                                                            : sw.compose_controllability(0, sw.intervals());
     r.stats = sw.stats;
   } else {
     WeightedPair pair = pair_for_kind(sys, options.kind);

@@ -1,6 +1,7 @@
 #include "gramian/gramian_sweep.hpp"
 
 #include <algorithm>
+#include <cmath>
 #include <exception>
 #include <memory>
 #include <thread>
@@ -47,6 +48,58 @@ Eigen::MatrixXd GramianSweep::compose_phi(std::size_t i, std::size_t j) const {
   return p;
 }
 
+namespace {
+
+/// One interval's step matrices and Gramians.
+struct StepData {
+  Eigen::MatrixXd phi, phi_inv, reach, ctrl;
+};
+
+/// Largest entry of Phi(t, s) or Phi(s, t) accepted in one block transition. The -a' block grows
+/// where a decays (stiff modes grow like exp(|lambda| h) there), and a step Gramian formed from
+/// much larger blocks loses digits; such an interval is halved and its halves composed.
+constexpr double kMaxBlockGrowth = 1e6;
+constexpr int kMaxSplits = 40;
+
+/// [a, m] then [m, b] as one step.
+StepData compose_steps(const StepData& l, const StepData& r) {
+  StepData d;
+  d.phi = r.phi * l.phi;
+  d.phi_inv = l.phi_inv * r.phi_inv;
+  d.reach = symmetrized(r.phi * l.reach * r.phi.transpose() + r.reach);
+  d.ctrl = symmetrized(l.ctrl + l.phi_inv * r.ctrl * l.phi_inv.transpose());
+  return d;
+}
+
+StepData block_step(Propagator& prop, int n, double a, double b, int depth) {
+  Eigen::MatrixXd X;
+  bool ok = true;
+  try {
+    X = prop.transition(a, b);
+    ok = X.allFinite() && X.topLeftCorner(n, n).cwiseAbs().maxCoeff() <= kMaxBlockGrowth &&
+         X.bottomRightCorner(n, n).cwiseAbs().maxCoeff() <= kMaxBlockGrowth;
+  } catch (const NumericalError&) {
+    if (depth >= kMaxSplits) throw;
+    ok = false;
+  }
+  if (ok) {
+    StepData d;
+    d.phi = X.topLeftCorner(n, n);
+    d.phi_inv = X.bottomRightCorner(n, n).transpose();
+    d.reach = symmetrized(X.topRightCorner(n, n) * X.topLeftCorner(n, n).transpose());
+    d.ctrl = symmetrized(X.bottomRightCorner(n, n).transpose() * X.topRightCorner(n, n));
+    return d;
+  }
+  if (depth >= kMaxSplits)
+    throw NumericalError("Gramian: the block transition matrix on [" + format_number(a) + ", " + format_number(b) +
+                         "] grows past " + format_number(kMaxBlockGrowth) + " even after " +
+                         std::to_string(kMaxSplits) + " halvings");
+  const double m = 0.5 * (a + b);
+  return compose_steps(block_step(prop, n, a, m, depth + 1), block_step(prop, n, m, b, depth + 1));
+}
+
+}  // namespace
+
 GramianSweep sweep_gramians(const System& sys, GramianKind kind, const std::vector<double>& times,
                             const PropagationOptions& options, int threads) {
   if (times.size() < 2) throw InputError("Gramian grid: at least two times are needed");
@@ -78,17 +131,32 @@ GramianSweep sweep_gramians(const System& sys, GramianKind kind, const std::vect
       PropagationOptions o = options;
       if (c != 0) o.progress = nullptr;  // one thread reports for all
       Propagator prop(block_generator(pair), o);
-      std::vector<double> sub(times.begin() + cut[c], times.begin() + cut[c + 1] + 1);
-      prop.for_each_interval(sub, [&](std::size_t k, const Eigen::MatrixXd& X) {
-        const std::size_t g = cut[c] + k;
-        if (!X.allFinite())
-          throw NumericalError("Gramian: the block transition matrix is not finite on [" +
-                               format_number(times[g]) + ", " + format_number(times[g + 1]) + "]");
-        sw.step_phi[g] = X.topLeftCorner(n, n);
-        sw.step_phi_inv[g] = X.bottomRightCorner(n, n).transpose();
-        sw.step_reach[g] = symmetrized(X.topRightCorner(n, n) * X.topLeftCorner(n, n).transpose());
-        sw.step_ctrl[g] = symmetrized(X.bottomRightCorner(n, n).transpose() * X.topRightCorner(n, n));
-      });
+      Eigen::MatrixXd a(n, n);
+      double rate = 0;
+      for (std::size_t g = cut[c]; g < cut[c + 1]; ++g) {
+        // Pieces short enough that neither block can grow past the limit at the growth rates
+        // of a's eigenvalues; non-normal growth and changes of the rate are left to block_step.
+        // The rate is refreshed every 32 intervals (an O(n^3) eigenvalue problem each time).
+        if ((g - cut[c]) % 32 == 0) {
+          pair.a(times[g], a);
+          const Eigen::VectorXcd ev = a.eigenvalues();
+          rate = std::max(ev.real().maxCoeff(), -ev.real().minCoeff());
+        }
+        const double pieces = std::ceil((times[g + 1] - times[g]) * std::max(rate, 0.0) / std::log(kMaxBlockGrowth));
+        const int k = static_cast<int>(std::min(std::max(pieces, 1.0), 1e6));
+        StepData d = block_step(prop, n, times[g], k == 1 ? times[g + 1] : times[g] + (times[g + 1] - times[g]) / k, 0);
+        for (int piece = 1; piece < k; ++piece) {
+          const double pa = times[g] + (times[g + 1] - times[g]) * piece / k;
+          const double pb = piece + 1 == k ? times[g + 1] : times[g] + (times[g + 1] - times[g]) * (piece + 1) / k;
+          StepData r = block_step(prop, n, pa, pb, 0);
+          d = compose_steps(d, r);
+        }
+        sw.step_phi[g] = std::move(d.phi);
+        sw.step_phi_inv[g] = std::move(d.phi_inv);
+        sw.step_reach[g] = std::move(d.reach);
+        sw.step_ctrl[g] = std::move(d.ctrl);
+        if (c == 0 && options.progress) options.progress(static_cast<double>(g + 1 - cut[0]) / (cut[1] - cut[0]));
+      }
       stats[c] = prop.stats();
     } catch (...) {
       errors[c] = std::current_exception();
@@ -125,9 +193,9 @@ GramianSweep sweep_gramians(const System& sys, GramianKind kind, const std::vect
     sw.phi_to_start[k + 1] = sw.phi_to_start[k] * sw.step_phi_inv[k];
     const Eigen::MatrixXd& psi = sw.phi_to_start[k];
     sw.cum_ctrl[k + 1] = symmetrized(sw.cum_ctrl[k] + psi * sw.step_ctrl[k] * psi.transpose());
-    if (!sw.cum_ctrl[k + 1].allFinite() || !sw.phi_from_start[k + 1].allFinite() ||
-        !sw.phi_to_start[k + 1].allFinite())
-      throw NumericalError("Gramian: running products overflow at t = " + format_number(times[k + 1]));
+    if (!sw.running_valid_to && (!sw.cum_ctrl[k + 1].allFinite() || !sw.phi_from_start[k + 1].allFinite() ||
+                                 !sw.phi_to_start[k + 1].allFinite()))
+      sw.running_valid_to = k;  // later entries are not finite; users fall back to composition
   }
   return sw;
 }

@@ -6,7 +6,9 @@
 // For G(t) = [[a, q], [0, -a']] the transition matrix over [s, t] is X = [[X11, X12], [0, X22]]
 // with X11 = Phi(t, s), X22 = Phi(s, t)' and X12 = int Phi(t, r) q Phi(s, r)' dr, so
 //   W_r(s, t) = X12 X11'   and   W_c(s, t) = X22' X12,
-// and no matrix is ever inverted: Phi(s, t) comes from X22.
+// and no matrix is ever inverted: Phi(s, t) comes from X22. X22 grows where a decays (stiff
+// modes); an interval whose Phi(t, s) or Phi(s, t) has an entry above 1e6 is halved and its
+// halves composed, so stiff models work on any grid.
 #include <Eigen/Dense>
 #include <vector>
 
@@ -30,6 +32,9 @@ struct GramianSweep {
   std::vector<Eigen::MatrixXd> phi_to_start;    ///< Psi_k = Phi(t_0, t_k)
   std::vector<Eigen::MatrixXd> cum_ctrl;        ///< C_k = W_c(t_0, t_k)
   PropagationStats stats;                       ///< summed over the threads
+  /// 0 when every running product is finite; else the last grid index k with finite F_k,
+  /// Psi_k and C_k (W_c(t0, t) of a stiff stable model grows without bound).
+  std::size_t running_valid_to = 0;
 
   int n() const { return step_phi.empty() ? 0 : static_cast<int>(step_phi[0].rows()); }
   std::size_t intervals() const { return step_phi.size(); }

@@ -44,6 +44,12 @@ Json GramianReport::to_json() const {
   j["rank"] = spectrum.rank;
   j["full_rank"] = spectrum.full_rank;
   j["weakest_direction"] = vector_to_json(spectrum.weakest_direction);
+  {
+    Json missing = Json::array();
+    for (Eigen::Index c = 0; c < spectrum.missing_directions.cols(); ++c)
+      missing.push_back(vector_to_json(Eigen::VectorXd(spectrum.missing_directions.col(c))));
+    j["missing_directions"] = missing;
+  }
   j["rank_tol"] = spectrum.rank_tol;
   j["rank_threshold"] = spectrum.threshold;
   j["route"] = result.route;
@@ -95,6 +101,8 @@ void GramianReport::print(std::ostream& out) const {
   for (Eigen::Index i = 0; i < spectrum.eigenvalues.size(); ++i) out << " " << spectrum.eigenvalues[i];
   out << "\n  condition number: " << spectrum.condition << "\n";
   out << "  weakest direction: " << describe_direction(spectrum.weakest_direction, state_names) << "\n";
+  for (Eigen::Index c = 1; c < spectrum.missing_directions.cols(); ++c)
+    out << "  also missing: " << describe_direction(spectrum.missing_directions.col(c), state_names) << "\n";
   out << "  route " << result.route << ", method " << method << ", " << result.stats.steps << " steps\n";
   if (transfer) {
     const TransferReport& t = *transfer;

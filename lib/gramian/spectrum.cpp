@@ -48,6 +48,8 @@ GramianSpectrum analyze_gramian(const Eigen::MatrixXd& w, double rank_tol) {
   Eigen::Index big = 0;
   s.weakest_direction.cwiseAbs().maxCoeff(&big);
   if (s.weakest_direction[big] < 0) s.weakest_direction = -s.weakest_direction;
+  s.missing_directions = es.eigenvectors().leftCols(n - s.rank);
+  if (n - s.rank > 0) s.missing_directions.col(0) = s.weakest_direction;
   return s;
 }
 

@@ -22,6 +22,9 @@ struct GramianSpectrum {
   int rank = 0;                       ///< eigenvalues > rank_tol * lambda_max
   bool full_rank = false;             ///< rank == n
   Eigen::VectorXd weakest_direction;  ///< unit eigenvector of lambda_min, largest entry positive
+  /// n x (n - rank): orthonormal basis of the directions counted as zero (the unreachable or
+  /// unobservable subspace at the tolerance), weakest first; empty at full rank.
+  Eigen::MatrixXd missing_directions;
   double rank_tol = kDefaultRankTol;  ///< the relative tolerance used
   double threshold = 0;               ///< rank_tol * lambda_max (absolute)
 };

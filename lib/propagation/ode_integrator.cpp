@@ -174,8 +174,9 @@ void OdeIntegrator::advance(double target, double* yout) {
     // The next stop: the first breakpoint strictly between t and target, else target.
     double stop = target;
     bool at_breakpoint = false;
+    // A breakpoint equal to the target counts too: the next leg then restarts past the jump.
     for (double bp : s.problem.breakpoints)
-      if (dir * (bp - s.t) > 0 && dir * (target - bp) > 0 && dir * (stop - bp) > 0) {
+      if (dir * (bp - s.t) > 0 && dir * (target - bp) >= 0 && dir * (stop - bp) >= 0) {
         stop = bp;
         at_breakpoint = true;
       }

@@ -10,6 +10,8 @@
 
 namespace ordex {
 
+using riccati_detail::require_finite_matrix;
+
 void RegulatorOptions::validate() const {
   riccati.validate();
   closed_loop.validate();
@@ -40,7 +42,7 @@ RegulatorReport regulate(const System& sys, const Weights& w, const std::vector<
 
   const PropagationOptions& engine = options.riccati.propagation;
   r.closed_loop_phi = closed_loop_transition(sys, w, solution, r.t0, r.t1, engine, &r.closed_loop_stats);
-  require_finite(r.closed_loop_phi, "closed-loop transition matrix", r.t1);
+  require_finite_matrix(r.closed_loop_phi, "closed-loop transition matrix", r.t1);
 
   // A periodic plant over whole periods: the closed loop's multipliers over the first period,
   // where a long horizon's gains are close to the periodic steady-state regulator.

@@ -12,6 +12,7 @@
 #include "riccati/riccati_routes.hpp"
 
 namespace ordex {
+namespace riccati_detail {
 
 void solve_by_hamiltonian(const System& sys, const Weights& w, const RiccatiOptions& options, RiccatiSolution& sol) {
   const int n = sys.states();
@@ -48,10 +49,11 @@ void solve_by_hamiltonian(const System& sys, const Weights& w, const RiccatiOpti
     const double rc = lu.rcond();
     if (!(rc > 1e-13))
       throw NumericalError("Hamiltonian step: S11 + S12 P is singular at t = " + format_number(t) +
-                           " (reciprocal condition " + format_number(rc) + ")");
+                           " (reciprocal condition " + format_number(rc) +
+                           "); a stiff plant needs a finer --dense grid, or --solver ode");
     P = lu.solve(Y.transpose()).transpose();
     P = (0.5 * (P + P.transpose())).eval();  // eval: in place it would alias
-    require_finite(P, "P (Hamiltonian route)", t);
+    require_finite_matrix(P, "P (Hamiltonian route)", t);
     sol.P[node] = P;
     if (options.propagation.progress) options.propagation.progress(double(k + 1) / double(count - 1));
   });
@@ -62,4 +64,5 @@ void solve_by_hamiltonian(const System& sys, const Weights& w, const RiccatiOpti
   sol.stats.error_estimate = st.error_estimate;
 }
 
+}  // namespace riccati_detail
 }  // namespace ordex

@@ -14,8 +14,12 @@
 #include "riccati/riccati_routes.hpp"
 
 namespace ordex {
+namespace riccati_detail {
 
 namespace {
+
+// Bound on |gamma| ||Acl||_1 below which the identity preconditions the Newton systems.
+constexpr double kIdentityPreconditionerBelow = 0.1;
 
 struct OdeWorkspace {
   OdeWorkspace(const System& sys, const Weights& w)
@@ -33,11 +37,20 @@ struct OdeWorkspace {
     return t;
   }
   Eigen::MatrixXd P, dP, K, Acl, X, JX, F;
-  LyapunovSolver lyapunov;
+  SchurLyapunovSolver lyapunov;
+  Eigen::MatrixXd factored;      // the Acl whose Schur form the preconditioner holds
+  long factorizations = 0;
+  bool use_identity = false;     // the preconditioner is the identity at this gamma
+  std::vector<double> last_y;    // (t, y) of the Acl in hand: GMRES asks J v many times per y
+  double last_t = NAN;
 
   // Acl = A - B K at (t, y).
   void closed_loop(double t, const double* y) {
-    unpack_symmetric(y, P);
+    const std::size_t size = static_cast<std::size_t>(n) * (n + 1) / 2;
+    if (t == last_t && last_y.size() == size && std::equal(y, y + size, last_y.begin())) return;
+    last_t = t;
+    last_y.assign(y, y + size);
+    unpack_upper(y, P);
     coeff.at(coefficient_time(t));
     coeff.gain(P, K);
     Acl = coeff.A;
@@ -56,28 +69,45 @@ void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOpti
   problem.size = size;
   problem.label = "Riccati equation (CVODE BDF)";
   problem.rhs = [ws](double t, const double* y, double* ydot) {
-    unpack_symmetric(y, ws->P);
+    unpack_upper(y, ws->P);
     ws->coeff.at(ws->coefficient_time(t));
     ws->coeff.riccati_rhs(ws->P, ws->dP, ws->K);
-    pack_symmetric(ws->dP, ydot);
+    pack_upper(ws->dP, ydot);
   };
   problem.jac_times = [ws](double t, const double* y, const double* v, double* Jv) {
     ws->closed_loop(t, y);
-    unpack_symmetric(v, ws->X);
+    unpack_upper(v, ws->X);
     ws->JX.noalias() = -ws->Acl.transpose() * ws->X;
     ws->JX.noalias() -= ws->X * ws->Acl;
-    pack_symmetric(ws->JX, Jv);
+    pack_upper(ws->JX, Jv);
   };
   problem.precond_setup = [ws](double t, const double* y, double gamma) {
     ws->closed_loop(t, y);
-    ws->F = gamma * ws->Acl;
-    ws->F.diagonal().array() += 0.5;
-    ws->lyapunov.factor(ws->F);
+    // When |gamma| ||Acl|| is small, I - gamma J is within that distance of I and GMRES
+    // converges in one or two unpreconditioned iterations (a product J v costs two n x n
+    // products; the Schur solve about eight complex ones): the identity is used then.
+    ws->use_identity = std::abs(gamma) * ws->Acl.lpNorm<1>() < kIdentityPreconditionerBelow;
+    if (ws->use_identity) return;
+    // The Schur form of Acl serves every gamma; it is renewed when Acl has moved by more than
+    // 5 % (a slightly stale preconditioner costs GMRES an iteration, never accuracy).
+    const double drift = ws->factorizations == 0 ? INFINITY
+                                                 : (ws->Acl - ws->factored).cwiseAbs().maxCoeff() /
+                                                       std::max(1e-300, ws->factored.cwiseAbs().maxCoeff());
+    if (drift > 0.05) {
+      ws->lyapunov.factor(ws->Acl);
+      ws->factored = ws->Acl;
+      ++ws->factorizations;
+    }
+    ws->lyapunov.set_shift(0.5, gamma);
   };
   problem.precond_solve = [ws](const double* r, double* z) {
-    unpack_symmetric(r, ws->X);
+    if (ws->use_identity) {
+      std::copy(r, r + ws->n * (ws->n + 1) / 2, z);
+      return;
+    }
+    unpack_upper(r, ws->X);
     ws->lyapunov.solve(ws->X, ws->JX);
-    pack_symmetric(ws->JX, z);
+    pack_upper(ws->JX, z);
   };
   const double t0 = sol.nodes.front(), t1 = sol.nodes.back();
   // Every breakpoint is a node of the dense grid (dense_grid), so no advance() below crosses one;
@@ -97,7 +127,7 @@ void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOpti
   Eigen::MatrixXd P = w.Qf.at(t1);
   P = (0.5 * (P + P.transpose())).eval();  // eval: in place it would alias
   sol.P.back() = P;
-  pack_symmetric(P, y.data());
+  pack_upper(P, y.data());
   integrator.reset(t1, y.data());
   const std::size_t count = sol.nodes.size();
   for (std::size_t i = count - 1; i-- > 0;) {
@@ -106,8 +136,8 @@ void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOpti
       if (std::abs(b - from) <= ws->nudge) integrator.reset(from, y.data());
     ws->mid = 0.5 * (t + from);
     integrator.advance(t, y.data());
-    unpack_symmetric(y.data(), sol.P[i]);
-    require_finite(sol.P[i], "P (Riccati equation)", t);
+    unpack_upper(y.data(), sol.P[i]);
+    require_finite_matrix(sol.P[i], "P (Riccati equation)", t);
     if (options.propagation.progress) options.propagation.progress(double(count - 1 - i) / double(count - 1));
   }
   const OdeStats st = integrator.stats();
@@ -117,4 +147,5 @@ void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOpti
   sol.stats.linear_iterations = st.linear_iterations;
 }
 
+}  // namespace riccati_detail
 }  // namespace ordex

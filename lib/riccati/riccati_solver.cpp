@@ -25,21 +25,27 @@ void RiccatiOptions::validate() const {
     throw InputError("--dense: " + std::to_string(dense_intervals) + " is outside [1, 10000000]");
 }
 
-void pack_symmetric(const Eigen::MatrixXd& P, double* y) {
+namespace riccati_detail {
+
+void pack_upper(const Eigen::MatrixXd& P, double* y) {
   const Eigen::Index n = P.rows();
   for (Eigen::Index j = 0; j < n; ++j)
     for (Eigen::Index i = 0; i <= j; ++i) *y++ = P(i, j);
 }
 
-void unpack_symmetric(const double* y, Eigen::MatrixXd& P) {
+void unpack_upper(const double* y, Eigen::MatrixXd& P) {
   const Eigen::Index n = P.rows();
   for (Eigen::Index j = 0; j < n; ++j)
     for (Eigen::Index i = 0; i <= j; ++i) P(i, j) = P(j, i) = *y++;
 }
 
-void require_finite(const Eigen::MatrixXd& x, const std::string& what, double t) {
+void require_finite_matrix(const Eigen::MatrixXd& x, const std::string& what, double t) {
   if (!x.allFinite()) throw NumericalError(what + " is not finite at t = " + format_number(t));
 }
+
+}  // namespace riccati_detail
+
+using namespace riccati_detail;
 
 std::vector<double> dense_grid(const std::vector<double>& output_times, int dense_intervals,
                                const std::vector<double>& breakpoints, std::vector<std::size_t>& output_index) {
@@ -131,8 +137,8 @@ RiccatiSolution solve_riccati(const System& sys, const Weights& w, const std::ve
     } else {
       sol.dP_right[i] = sol.dP_left[i];
     }
-    require_finite(sol.dP_left[i], "dP/dt", t);
-    require_finite(sol.dP_right[i], "dP/dt", t);
+    require_finite_matrix(sol.dP_left[i], "dP/dt", t);
+    require_finite_matrix(sol.dP_right[i], "dP/dt", t);
   }
   sol.stats.solver = options.solver;
   sol.stats.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();

@@ -31,8 +31,11 @@ nlohmann::json run_json(const std::string& args) {
   return nlohmann::json::parse(r.out);
 }
 
+// Tolerances two decades under the checks' 1e-8: the checks compare with the closed form,
+// so they must see the solver's accuracy, not its default tolerance.
 std::string scalar_args() {
-  return "--model " + kData + "riccati_scalar.toml --weights " + kData + "riccati_scalar_weights.toml";
+  return "--model " + kData + "riccati_scalar.toml --weights " + kData +
+         "riccati_scalar_weights.toml --rtol 1e-10 --atol 1e-12";
 }
 
 // Runs with bad input: exit 2, exactly one line "ordex-regulate: error: ..." containing every

@@ -13,6 +13,7 @@ import sys
 import numpy as np
 from scipy.integrate import solve_ivp
 
+sys.dont_write_bytecode = True  # keep tests/reference free of __pycache__
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 from gramian_tv_system import A, B, C  # noqa: E402
 

@@ -12,6 +12,7 @@ import numpy as np
 from scipy.integrate import simpson, solve_ivp
 from scipy.interpolate import CubicSpline
 
+sys.dont_write_bytecode = True  # keep tests/reference free of __pycache__
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 from gramian_tv_system import A, B  # noqa: E402
 

@@ -17,7 +17,7 @@ using ordex_test::run_app;
 
 const std::string kDir = ORDEX_TESTS_DIR "/data/";
 const std::string kCart = "--model " + kDir + "gramian_double_integrator.toml";
-const std::string kOrbit = "--model " + kDir + "gramian_orbit_thrust_axes.toml";
+const std::string kOrbit = "--model " + std::string(ORDEX_MODELS_DIR) + "/orbit_relative_motion.toml";
 
 nlohmann::json json_of(const ordex_test::RunResult& r) { return nlohmann::json::parse(r.out); }
 

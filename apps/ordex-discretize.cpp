@@ -1,9 +1,13 @@
 // ordex-discretize: the discrete-time model x_{k+1} = Phi_k x_k + Gamma_k u_k on a sample grid
 // (CONTRACT.md "ordex-discretize"; CSV layout in docs/response.md). The work is in lib/response.
+#include <filesystem>
 #include <iostream>
+#include <memory>
 
 #include "io/app.hpp"
 #include "io/errors.hpp"
+#include "io/json.hpp"
+#include "io/output_file.hpp"
 #include "model/model_file.hpp"
 #include "response/discretize.hpp"
 
@@ -37,6 +41,11 @@ int main(int argc, char** argv) {
                                    "interval, k,t_start,t_end,phi_1_1..phi_n_n,gamma_1_1..; docs/response.md). "
                                    "Exit status: 0 done, 2 bad input, 3 numerical failure."))
       return 0;
+    if (vm.count("step") && step_text.empty()) throw ordex::InputError("--step: empty value");
+    if (vm.count("times") && times_path.empty()) throw ordex::InputError("--times: empty path");
+    for (const std::string& out : {c.json, c.csv})
+      if (!out.empty() && out != "-" && std::filesystem::is_directory(out))
+        throw ordex::InputError(out + ": is a folder, not an output file");
     if (!step_text.empty() && !times_path.empty())
       throw ordex::InputError("--step and --times: give one of them, not both");
     const bool samples_given = !vm["samples"].defaulted();
@@ -61,9 +70,15 @@ int main(int argc, char** argv) {
       grid = step_text.empty() ? s.samples
                                : ordex::step_grid(s.t0, s.t1, ordex::evaluate_constant(step_text, "--step"));
     }
+    // The JSON temporary is opened before the work and committed after the CSV, so an error
+    // leaves neither file behind.
+    std::unique_ptr<ordex::OutputFile> json_out;
+    if (!c.json.empty() && c.json != "-") json_out = std::make_unique<ordex::OutputFile>(c.json);
     ordex::DiscretizeReport rep = ordex::discretize(*s.system, grid, o);
+    if (json_out) json_out->stream() << ordex::discretize_report_json(rep, *s.system).dump(2) << "\n";
     if (!c.csv.empty()) ordex::write_discrete_model_csv(c.csv, rep.model);
-    if (!c.json.empty()) ordex::write_json_file(c.json, ordex::discretize_report_json(rep, *s.system));
+    if (json_out) json_out->commit();
+    if (c.json == "-") ordex::write_json_file(c.json, ordex::discretize_report_json(rep, *s.system));
     if (c.json != "-") std::cout << ordex::discretize_report_text(rep, *s.system) << ordex::kHardwareCaution << "\n";
     return 0;
   });

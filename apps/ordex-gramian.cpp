@@ -1,5 +1,6 @@
 // ordex-gramian: controllability, reachability and observability Gramians over a window, the
 // minimum-energy transfer between two states, and a sliding-window profile.
+#include <filesystem>
 #include <iostream>
 #include <memory>
 #include <optional>
@@ -70,6 +71,11 @@ int main(int argc, char** argv) {
       return 0;
 
     // Everything is checked before any work is done or any file is opened.
+    for (const std::string& out : {common.json, common.csv, input_out})
+      if (!out.empty() && out != "-" && std::filesystem::is_directory(out))
+        throw InputError(out + ": is a folder, not an output file");
+    if (vm.count("window-length") && !(check_fraction > 0 && check_fraction <= 1))
+      throw InputError("--profile-check: " + format_number(check_fraction) + " is not in (0, 1]");
     GramianOptions gopt;
     gopt.kind = parse_kind(kind_text);
     gopt.route = parse_route(route_text);

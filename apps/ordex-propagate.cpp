@@ -2,12 +2,15 @@
 // estimate, the Liouville check and, for a periodic model, Floquet analysis.
 #include <cmath>
 #include <iomanip>
+#include <filesystem>
 #include <iostream>
+#include <memory>
 
 #include "io/app.hpp"
 #include "io/csv.hpp"
 #include "io/errors.hpp"
 #include "io/json.hpp"
+#include "io/output_file.hpp"
 #include "propagation/floquet.hpp"
 #include "propagation/propagate_report.hpp"
 
@@ -31,6 +34,9 @@ int main(int argc, char** argv) {
                             "whether the system is asymptotically stable.\n"
                             "--csv writes t,phi_1_1,...,phi_n_n (row-major) at the --samples times."))
       return 0;
+    for (const std::string& out : {common.json, common.csv})
+      if (!out.empty() && out != "-" && std::filesystem::is_directory(out))
+        throw InputError(out + ": is a folder, not an output file");
     PropagateRequest req;
     req.floquet = floquet;
     AppSetup setup = setup_from_common(common, /*need_window=*/!floquet);
@@ -49,6 +55,9 @@ int main(int argc, char** argv) {
     // Without --csv only Phi(t1, t0) is wanted: no grid, so steps need not stop at samples.
     if (common.csv.empty()) setup.samples = {setup.t1};
     setup.propagation.progress = terminal_progress("ordex-propagate");
+    // Both outputs are opened (as temporaries) before the work and committed together at the end.
+    std::unique_ptr<OutputFile> json_out;
+    if (!common.json.empty() && common.json != "-") json_out = std::make_unique<OutputFile>(common.json);
     PropagateReport rep = propagate_model(*setup.system, setup.t0, setup.t1, setup.samples,
                                           setup.propagation, req);
     if (!common.csv.empty()) {
@@ -63,9 +72,13 @@ int main(int argc, char** argv) {
         append_row_major(row, rep.sample_phi[k]);
         csv.row(row);
       }
+      if (json_out) json_out->stream() << propagate_report_json(*setup.system, rep).dump(2) << "\n";
       csv.commit();
+    } else if (json_out) {
+      json_out->stream() << propagate_report_json(*setup.system, rep).dump(2) << "\n";
     }
-    if (!common.json.empty()) write_json_file(common.json, propagate_report_json(*setup.system, rep));
+    if (json_out) json_out->commit();
+    if (common.json == "-") write_json_file(common.json, propagate_report_json(*setup.system, rep));
     if (common.json != "-") print_propagate_report(std::cout, *setup.system, rep);
     return 0;
   });

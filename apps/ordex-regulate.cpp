@@ -1,11 +1,13 @@
 // ordex-regulate: finite-horizon time-varying LQR (CONTRACT.md). Solves the Riccati equation
 // backwards over the window, writes the gain schedule, and checks the regulator in closed loop.
+#include <filesystem>
 #include <iostream>
 
 #include "io/app.hpp"
 #include "io/csv.hpp"
 #include "io/errors.hpp"
 #include "io/json.hpp"
+#include "io/output_file.hpp"
 #include "riccati/regulator.hpp"
 #include "riccati/weights.hpp"
 
@@ -53,7 +55,14 @@ int main(int argc, char** argv) {
     const ordex::System& sys = *setup.system;
     const int n = sys.states(), m = sys.inputs();
     if (m < 1) throw ordex::InputError(common.model + ": the model has no inputs; a regulator needs B");
+    if (vm.count("x0") && x0_text.empty()) throw ordex::InputError("--x0: empty vector");
     if (!response_csv.empty() && x0_text.empty()) throw ordex::InputError("--response-csv needs --x0");
+    if (vm.count("weights") && weights_path.empty()) throw ordex::InputError("--weights: empty path");
+    if (!weights_path.empty() && std::filesystem::is_directory(weights_path))
+      throw ordex::InputError(weights_path + ": is a folder, not a weights file");
+    for (const std::string& out : {common.json, common.csv, p_csv, response_csv})
+      if (!out.empty() && out != "-" && std::filesystem::is_directory(out))
+        throw ordex::InputError(out + ": is a folder, not an output file");
 
     ordex::Weights weights = weights_path.empty() ? ordex::default_weights(n, m)
                                                   : ordex::load_weights(weights_path, n, m);
@@ -105,10 +114,16 @@ int main(int argc, char** argv) {
         run_csv->row(row);
       }
     }
+    std::unique_ptr<ordex::OutputFile> json_out;
+    if (!common.json.empty() && common.json != "-") {
+      json_out = std::make_unique<ordex::OutputFile>(common.json);
+      json_out->stream() << report.to_json().dump(2) << "\n";
+    }
     if (gains_csv) gains_csv->commit();
     if (riccati_csv) riccati_csv->commit();
     if (run_csv) run_csv->commit();
-    if (!common.json.empty()) ordex::write_json_file(common.json, report.to_json());
+    if (json_out) json_out->commit();
+    if (common.json == "-") ordex::write_json_file(common.json, report.to_json());
     if (common.json != "-") report.print(std::cout);
     return 0;
   });

@@ -3,10 +3,13 @@
 #include <algorithm>
 #include <filesystem>
 #include <iostream>
+#include <memory>
 #include <set>
 
 #include "io/app.hpp"
 #include "io/errors.hpp"
+#include "io/json.hpp"
+#include "io/output_file.hpp"
 #include "model/model_file.hpp"
 #include "response/respond.hpp"
 
@@ -63,6 +66,7 @@ int main(int argc, char** argv) {
     o.path = ordex::parse_response_path(path);
     o.propagation = s.propagation;
     o.reuse_time_invariant = vm.count("no-reuse") == 0;
+    if (vm.count("x0") && x0_text.empty()) throw ordex::InputError("--x0: empty vector");
     if (!x0_text.empty()) o.x0 = ordex::parse_vector(x0_text, sys.states(), "--x0");
     o.progress = ordex::terminal_progress("ordex-respond");
 
@@ -109,16 +113,19 @@ int main(int argc, char** argv) {
 
     // Output names are settled before the computation, so a clash fails fast.
     std::vector<std::string> csv_paths;
+    if (!c.json.empty() && c.json != "-" && std::filesystem::is_directory(c.json))
+      throw ordex::InputError(c.json + ": is a folder, not an output file");
+    if (!c.csv.empty() && inputs.size() <= 1 && std::filesystem::is_directory(c.csv))
+      throw ordex::InputError(c.csv + ": is a folder, not an output file (a folder is for several --input)");
+    bool create_csv_folder = false;
     if (!c.csv.empty()) {
       if (inputs.size() <= 1) {
         csv_paths.push_back(c.csv);
       } else {
         namespace fs = std::filesystem;
-        std::error_code ec;
         if (fs::exists(c.csv) && !fs::is_directory(c.csv))
           throw ordex::InputError("--csv: " + c.csv + " is a file; with several --input it names a folder");
-        fs::create_directories(c.csv, ec);
-        if (ec) throw ordex::InputError("--csv: cannot create the folder " + c.csv + " (" + ec.message() + ")");
+        create_csv_folder = !fs::exists(c.csv);
         std::set<std::string> seen;
         for (const std::string& p : inputs) {
           std::string name = fs::path(p).stem().string() + ".csv";
@@ -130,9 +137,20 @@ int main(int argc, char** argv) {
       }
     }
 
+    // The JSON temporary is opened before the computation, so an unwritable path fails fast and
+    // leaves nothing behind; the folder for several CSVs is created only once the work is done.
+    std::unique_ptr<ordex::OutputFile> json_out;
+    if (!c.json.empty() && c.json != "-") json_out = std::make_unique<ordex::OutputFile>(c.json);
     ordex::RespondReport rep = ordex::respond(sys, histories, o);
+    if (json_out) json_out->stream() << ordex::respond_report_json(rep, sys).dump(2) << "\n";
+    if (create_csv_folder) {
+      std::error_code ec;
+      std::filesystem::create_directories(c.csv, ec);
+      if (ec) throw ordex::InputError("--csv: cannot create the folder " + c.csv + " (" + ec.message() + ")");
+    }
     for (std::size_t i = 0; i < csv_paths.size(); ++i) ordex::write_run_csv(csv_paths[i], sys, rep.runs[i]);
-    if (!c.json.empty()) ordex::write_json_file(c.json, ordex::respond_report_json(rep, sys));
+    if (json_out) json_out->commit();
+    if (c.json == "-") ordex::write_json_file(c.json, ordex::respond_report_json(rep, sys));
     if (c.json != "-") std::cout << ordex::respond_report_text(rep, sys);
     return 0;
   });

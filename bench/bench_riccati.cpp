@@ -15,14 +15,15 @@
 #include "io/app.hpp"
 #include "model/function_system.hpp"
 #include "model/model_file.hpp"
+#include "propagation/symmetric_packing.hpp"
 #include "riccati/lqr_coefficients.hpp"
 #include "riccati/riccati_routes.hpp"
 #include "riccati/riccati_solver.hpp"
 #include "riccati/weights.hpp"
 
 using namespace ordex;
-using riccati_detail::pack_upper;
-using riccati_detail::unpack_upper;
+using ordex::pack_symmetric;
+using ordex::unpack_symmetric;
 using Clock = std::chrono::steady_clock;
 
 namespace {
@@ -136,20 +137,20 @@ std::vector<Eigen::MatrixXd> odeint_solve(const Problem& p, const std::vector<do
   LqrCoefficients coeff(*p.sys, p.w);
   Eigen::MatrixXd P(n, n), dP(n, n), K(p.sys->inputs(), n);
   auto rhs = [&](const State& y, State& dy, double t) {
-    unpack_upper(y.data(), P);
+    unpack_symmetric(y.data(), P);
     coeff.at(t);
     coeff.riccati_rhs(P, dP, K);
-    pack_upper(dP, dy.data());
+    pack_symmetric(dP, dy.data());
   };
   State y(static_cast<std::size_t>(n * (n + 1) / 2));
-  pack_upper(p.w.Qf.at(p.t1), y.data());
+  pack_symmetric(p.w.Qf.at(p.t1), y.data());
   std::vector<double> backward(times.rbegin(), times.rend());
   std::vector<Eigen::MatrixXd> out(times.size(), Eigen::MatrixXd(n, n));
   std::size_t idx = times.size();
   auto stepper = oi::make_controlled(atol, rtol, oi::runge_kutta_fehlberg78<State>());
   steps = static_cast<long>(oi::integrate_times(stepper, rhs, y, backward.begin(), backward.end(),
                                                 -(p.t1 - p.t0) / 1000.0, [&](const State& s, double) {
-                                                  unpack_upper(s.data(), out[--idx]);
+                                                  unpack_symmetric(s.data(), out[--idx]);
                                                 }));
   return out;
 }

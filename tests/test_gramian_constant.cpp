@@ -137,8 +137,9 @@ TEST(GramianConstant, LyapunovSolverSatisfiesItsEquation) {
   // The preconditioner's solve of M X + X M' = R, checked by substituting X back.
   Eigen::MatrixXd m = Eigen::MatrixXd::Random(7, 7) + 3 * Eigen::MatrixXd::Identity(7, 7);
   Eigen::MatrixXd r = Eigen::MatrixXd::Random(7, 7);
-  ordex::LyapunovSolver s;
-  s.factor(m);
+  ordex::SchurLyapunovSolver s;  // M X + X M' = F' X + X F with F = M'
+  s.factor(m.transpose());
+  s.set_shift(0.0, 1.0);
   Eigen::MatrixXd x;
   s.solve(r, x);
   EXPECT_LT((m * x + x * m.transpose() - r).norm(), 1e-12 * r.norm() * m.norm());

@@ -11,7 +11,7 @@
 #include "model/function_system.hpp"
 #include "model/model_file.hpp"
 #include "riccati/closed_loop.hpp"
-#include "riccati/lyapunov.hpp"
+#include "propagation/lyapunov_solver.hpp"
 #include "riccati/regulator.hpp"
 #include "riccati/riccati_solver.hpp"
 #include "riccati/weights.hpp"

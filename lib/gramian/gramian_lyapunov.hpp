@@ -4,33 +4,20 @@
 //   forward  dW/dt  = a W + W a' + q,  W(t0) = 0    ->  W(t1)  = W_r(t0, t1)
 //   backward dW/dt0 = a W + W a' - q,  W(t1) = 0    ->  W(t0)  = W_c(t0, t1)
 // With BDF the Newton systems (I - gamma L) X = R, L(X) = a X + X a', are Lyapunov equations
-// M X + X M' = R with M = I/2 - gamma a; LyapunovSolver solves them exactly in O(n^3), so GMRES
+// M X + X M' = R with M = I/2 - gamma a; SchurLyapunovSolver (lib/propagation) solves them exactly
+// in O(n^3), so GMRES
 // converges in one iteration and no n^2 x n^2 matrix is ever formed.
 #include <Eigen/Dense>
 #include <complex>
 
 #include "gramian/gramian.hpp"
+#include "propagation/lyapunov_solver.hpp"
 #include "propagation/ode_integrator.hpp"
+#include "propagation/symmetric_packing.hpp"
 
 namespace ordex {
 
-/// Solves M X + X M' = R (all n x n, M real) by Bartels-Stewart on the complex Schur form of M.
-/// Unique when no two eigenvalues of M sum to zero.
-class LyapunovSolver {
- public:
-  /// Factors M (O(n^3)). Throws NumericalError when the Schur form fails.
-  void factor(const Eigen::MatrixXd& m);
-  /// X from R (O(n^3)); R and X may be any real n x n matrices.
-  void solve(const Eigen::MatrixXd& r, Eigen::MatrixXd& x) const;
 
- private:
-  Eigen::MatrixXcd u_, t_;
-};
-
-/// Number of packed entries n(n+1)/2 and the packing of the upper triangle (column by column).
-int packed_size(int n);
-void pack_symmetric(const Eigen::MatrixXd& w, double* out);
-void unpack_symmetric(const double* in, Eigen::MatrixXd& w);
 
 /// W_r(t0, t1) (REACHABILITY true, integrated forward) or W_c(t0, t1) (false, backward) of PAIR
 /// by the Lyapunov equation. STATS receives CVODE's counts when not null.

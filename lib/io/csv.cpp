@@ -46,6 +46,7 @@ CsvTable read_csv(const std::string& path) {
       for (const auto& f : fields)
         if (f.empty()) throw InputError(path + ":" + std::to_string(lineno) + ": empty column name in header");
       t.header = fields;
+      t.header_line = lineno;
       continue;
     }
     if (fields.size() != t.header.size())

@@ -16,6 +16,7 @@ struct CsvTable {
   std::vector<std::string> header;  ///< column names, trimmed
   Eigen::MatrixXd values;           ///< rows x columns
   std::vector<int> line_of_row;     ///< 1-based file line of each data row (for messages)
+  int header_line = 1;              ///< 1-based file line of the header row
 };
 
 /// Reads PATH. Blank lines and lines starting with '#' are skipped. Every data row must have as

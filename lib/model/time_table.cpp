@@ -14,20 +14,6 @@ namespace {
 
 double sign(double x) { return (x > 0) - (x < 0); }
 
-// The file line of the header row (the first line that is neither blank nor a '#' comment),
-// which read_csv does not record.
-int header_line(const std::string& path) {
-  std::ifstream in(path);
-  std::string line;
-  int n = 0;
-  while (std::getline(in, line)) {
-    ++n;
-    std::size_t b = line.find_first_not_of(" \t\r");
-    if (b != std::string::npos && line[b] != '#') return n;
-  }
-  return 1;
-}
-
 // One-sided three-point slope at an end, limited to keep the curve's shape (Moler, Numerical
 // Computing with MATLAB, sec. 3.4 "pchip"): H0, M0 belong to the end interval, H1, M1 to its
 // neighbour.
@@ -49,7 +35,7 @@ const char* to_string(OutsidePolicy o) { return o == OutsidePolicy::error ? "err
 
 TimeTable::TimeTable(const TableOptions& options) : options_(options) {
   CsvTable csv = read_csv(options.file);
-  const int hline = header_line(options.file);
+  const int hline = csv.header_line;
   if (csv.header.size() < 2)
     throw InputError(options.file + ":" + std::to_string(hline) +
                      ": the table needs column t and at least one more column");

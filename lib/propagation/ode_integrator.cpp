@@ -103,6 +103,19 @@ struct OdeIntegrator::Impl {
     self->cvode_message = std::string(function ? function : "CVODE") + ": " + (msg ? msg : "");
   }
 
+  /// After a CVode call: rethrows a callback's exception, or reports CVODE's failure at the
+  /// time it reached.
+  void after_call(int flag, double reached) {
+    if (pending) {
+      auto e = pending;
+      pending = nullptr;
+      std::rethrow_exception(e);
+    }
+    if (flag < 0)
+      throw NumericalError(problem.label + ": integration failed at t = " + format_number(reached) +
+                           (cvode_message.empty() ? "" : " (" + cvode_message + ")"));
+  }
+
   void check(int flag, const char* what) {
     if (flag < 0) throw NumericalError(problem.label + ": CVODE " + what + " failed (" + std::to_string(flag) + ")");
   }
@@ -193,15 +206,7 @@ void OdeIntegrator::advance(double target, double* yout) {
         }
       if (has_beyond) s.check(CVodeSetStopTime(s.mem, beyond), "stop time");
       realtype tret = s.t;
-      int flag = CVode(s.mem, target, s.y, &tret, CV_NORMAL);
-      if (s.pending) {
-        auto e = s.pending;
-        s.pending = nullptr;
-        std::rethrow_exception(e);
-      }
-      if (flag < 0)
-        throw NumericalError(s.problem.label + ": integration failed before t = " + format_number(target) +
-                             (s.cvode_message.empty() ? "" : " (" + s.cvode_message + ")"));
+      s.after_call(CVode(s.mem, target, s.y, &tret, CV_NORMAL), tret);
       s.t = target;
       break;
     }
@@ -210,14 +215,7 @@ void OdeIntegrator::advance(double target, double* yout) {
     while (true) {
       realtype tret = s.t;
       int flag = CVode(s.mem, stop, s.y, &tret, CV_ONE_STEP);
-      if (s.pending) {
-        auto e = s.pending;
-        s.pending = nullptr;
-        std::rethrow_exception(e);
-      }
-      if (flag < 0)
-        throw NumericalError(s.problem.label + ": integration failed at t = " + format_number(tret) +
-                             (s.cvode_message.empty() ? "" : " (" + s.cvode_message + ")"));
+      s.after_call(flag, tret);
       s.t = tret;
       if (s.problem.on_step) {
         CVodeGetEstLocalErrors(s.mem, s.ele);

@@ -16,20 +16,6 @@ std::string join(const std::vector<std::string>& names) {
   return s;
 }
 
-// The 1-based line of the header row: the first line that is neither blank nor a comment
-// (read_csv skips those too).
-int header_line(const std::string& path) {
-  std::ifstream in(path);
-  std::string line;
-  int n = 0;
-  while (std::getline(in, line)) {
-    ++n;
-    std::size_t b = line.find_first_not_of(" \t\r");
-    if (b != std::string::npos && line[b] != '#') return n;
-  }
-  return 1;
-}
-
 }  // namespace
 
 std::string hold_name(Hold hold) { return hold == Hold::Zoh ? "zoh" : "linear"; }
@@ -51,7 +37,7 @@ InputHistory read_input_history(const std::string& path, const System& sys) {
   std::vector<std::string> expected{"t"};
   expected.insert(expected.end(), names.begin(), names.end());
   if (table.header != expected) {
-    std::string where = path + ":" + std::to_string(header_line(path)) + ": ";
+    std::string where = path + ":" + std::to_string(table.header_line) + ": ";
     if (names.empty())
       throw InputError(where + "the model has no inputs, so an input history is not used");
     throw InputError(where + "header '" + join(table.header) + "' does not match the model's inputs (expected '" +

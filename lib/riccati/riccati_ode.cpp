@@ -8,9 +8,10 @@
 #include <memory>
 
 #include "io/errors.hpp"
+#include "propagation/lyapunov_solver.hpp"
 #include "propagation/ode_integrator.hpp"
+#include "propagation/symmetric_packing.hpp"
 #include "riccati/lqr_coefficients.hpp"
-#include "riccati/lyapunov.hpp"
 #include "riccati/riccati_routes.hpp"
 
 namespace ordex {
@@ -50,7 +51,7 @@ struct OdeWorkspace {
     if (t == last_t && last_y.size() == size && std::equal(y, y + size, last_y.begin())) return;
     last_t = t;
     last_y.assign(y, y + size);
-    unpack_upper(y, P);
+    unpack_symmetric(y, P);
     coeff.at(coefficient_time(t));
     coeff.gain(P, K);
     Acl = coeff.A;
@@ -69,17 +70,17 @@ void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOpti
   problem.size = size;
   problem.label = "Riccati equation (CVODE BDF)";
   problem.rhs = [ws](double t, const double* y, double* ydot) {
-    unpack_upper(y, ws->P);
+    unpack_symmetric(y, ws->P);
     ws->coeff.at(ws->coefficient_time(t));
     ws->coeff.riccati_rhs(ws->P, ws->dP, ws->K);
-    pack_upper(ws->dP, ydot);
+    pack_symmetric(ws->dP, ydot);
   };
   problem.jac_times = [ws](double t, const double* y, const double* v, double* Jv) {
     ws->closed_loop(t, y);
-    unpack_upper(v, ws->X);
+    unpack_symmetric(v, ws->X);
     ws->JX.noalias() = -ws->Acl.transpose() * ws->X;
     ws->JX.noalias() -= ws->X * ws->Acl;
-    pack_upper(ws->JX, Jv);
+    pack_symmetric(ws->JX, Jv);
   };
   problem.precond_setup = [ws](double t, const double* y, double gamma) {
     ws->closed_loop(t, y);
@@ -105,9 +106,9 @@ void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOpti
       std::copy(r, r + ws->n * (ws->n + 1) / 2, z);
       return;
     }
-    unpack_upper(r, ws->X);
+    unpack_symmetric(r, ws->X);
     ws->lyapunov.solve(ws->X, ws->JX);
-    pack_upper(ws->JX, z);
+    pack_symmetric(ws->JX, z);
   };
   const double t0 = sol.nodes.front(), t1 = sol.nodes.back();
   // Every breakpoint is a node of the dense grid (dense_grid), so no advance() below crosses one;
@@ -127,7 +128,7 @@ void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOpti
   Eigen::MatrixXd P = w.Qf.at(t1);
   P = (0.5 * (P + P.transpose())).eval();  // eval: in place it would alias
   sol.P.back() = P;
-  pack_upper(P, y.data());
+  pack_symmetric(P, y.data());
   integrator.reset(t1, y.data());
   const std::size_t count = sol.nodes.size();
   for (std::size_t i = count - 1; i-- > 0;) {
@@ -136,7 +137,7 @@ void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOpti
       if (std::abs(b - from) <= ws->nudge) integrator.reset(from, y.data());
     ws->mid = 0.5 * (t + from);
     integrator.advance(t, y.data());
-    unpack_upper(y.data(), sol.P[i]);
+    unpack_symmetric(y.data(), sol.P[i]);
     require_finite_matrix(sol.P[i], "P (Riccati equation)", t);
     if (options.propagation.progress) options.propagation.progress(double(count - 1 - i) / double(count - 1));
   }

@@ -9,10 +9,6 @@ namespace riccati_detail {
 void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOptions& options, RiccatiSolution& sol);
 void solve_by_hamiltonian(const System& sys, const Weights& w, const RiccatiOptions& options, RiccatiSolution& sol);
 
-/// Upper triangle of the symmetric n x n matrix P, column by column, into Y (n(n+1)/2 values).
-void pack_upper(const Eigen::MatrixXd& P, double* y);
-/// The inverse of pack_upper.
-void unpack_upper(const double* y, Eigen::MatrixXd& P);
 /// Throws NumericalError "WHAT is not finite at t = T" unless every entry of X is finite.
 void require_finite_matrix(const Eigen::MatrixXd& x, const std::string& what, double t);
 

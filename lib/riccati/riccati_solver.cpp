@@ -27,18 +27,6 @@ void RiccatiOptions::validate() const {
 
 namespace riccati_detail {
 
-void pack_upper(const Eigen::MatrixXd& P, double* y) {
-  const Eigen::Index n = P.rows();
-  for (Eigen::Index j = 0; j < n; ++j)
-    for (Eigen::Index i = 0; i <= j; ++i) *y++ = P(i, j);
-}
-
-void unpack_upper(const double* y, Eigen::MatrixXd& P) {
-  const Eigen::Index n = P.rows();
-  for (Eigen::Index j = 0; j < n; ++j)
-    for (Eigen::Index i = 0; i <= j; ++i) P(i, j) = P(j, i) = *y++;
-}
-
 void require_finite_matrix(const Eigen::MatrixXd& x, const std::string& what, double t) {
   if (!x.allFinite()) throw NumericalError(what + " is not finite at t = " + format_number(t));
 }

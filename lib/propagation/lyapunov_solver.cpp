@@ -1,4 +1,4 @@
-#include "riccati/lyapunov.hpp"
+#include "propagation/lyapunov_solver.hpp"
 
 #include <cmath>
 

@@ -4,7 +4,7 @@
 // G = alpha I + beta T upper triangular, solved column by column by forward substitution, and
 // X = U Y U*). The Schur form of M is kept across shifts, so the Riccati equation's Newton
 // matrices I - gamma J, which act on X as (I/2 + gamma Acl)' X + X (I/2 + gamma Acl), reuse one
-// factorization of Acl for every gamma.
+// factorization of Acl for every gamma. The Gramian's Lyapunov route uses it the same way.
 #include <Eigen/Dense>
 #include <complex>
 

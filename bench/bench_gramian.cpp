@@ -1,4 +1,4 @@
-// Benchmark of the Gramian module (docs/performance/gramian.md):
+// Benchmark of the Gramian module (docs/performance.md):
 //  1. the reachability Gramian of the orbit model over one revolution and of a random n = 48
 //     time-varying model, by the block route (engine, Magnus 6), the Lyapunov route (CVODE
 //     Adams) and the baseline: the Lyapunov differential equation on the n(n+1)/2 entries

@@ -73,7 +73,7 @@ FILE* g_out = stdout;
 
 struct Options {
   /// --quick: a small smoke run (short Mathieu window, n = 12 and 24, four tolerances, short
-  /// timing). Default false: the full run of docs/performance/propagation.md.
+  /// timing). Default false: the full run of docs/performance.md.
   bool quick = false;
   /// --problems: comma-separated subset of orbit, mathieu, random; default all three.
   std::string problems = "orbit,mathieu,random";

@@ -1,4 +1,4 @@
-// Benchmarks of the response module (docs/performance/response.md has the figures):
+// Benchmarks of the response module (docs/performance.md has the figures):
 //  1. 100 input histories of 10,000 samples through the orbit scenario: the batch exact path
 //     (step matrices computed once for the shared grid) against the direct CVODE path and a
 //     Boost.Odeint runge_kutta_fehlberg78 baseline at the same tolerances; accuracy of each

@@ -32,7 +32,7 @@ RiccatiSolver parse_solver(const std::string& name);
 struct RiccatiOptions {
   /// Which solver; default RiccatiOde, the faster of the two in bench/bench_riccati.cpp on
   /// every problem there but the non-stiff n = 48 chain at rtol 1e-10, and the one that copes with
-  /// stiff plants (docs/performance/riccati.md). Hamiltonian is the cross-check.
+  /// stiff plants (docs/performance.md). Hamiltonian is the cross-check.
   RiccatiSolver solver = RiccatiSolver::RiccatiOde;
   /// Engine method and tolerances. The Hamiltonian route hands them to the Propagator; the
   /// ODE route uses rtol and atol for CVODE BDF (its method field is ignored). Defaults as

@@ -4,6 +4,7 @@
 #include <iomanip>
 #include <filesystem>
 #include <iostream>
+#include <set>
 #include <memory>
 
 #include "io/app.hpp"
@@ -32,11 +33,25 @@ int main(int argc, char** argv) {
                             "With --floquet (a model with a period) it propagates one period from t0 and "
                             "reports the monodromy matrix, the Floquet multipliers and exponents, and "
                             "whether the system is asymptotically stable.\n"
-                            "--csv writes t,phi_1_1,...,phi_n_n (row-major) at the --samples times."))
+                            "--csv writes t,phi_1_1,...,phi_n_n (row-major) at the --samples times.\n"
+                            "Exit status: 0 done, 2 bad input, 3 numerical failure."))
       return 0;
     for (const std::string& out : {common.json, common.csv})
       if (!out.empty() && out != "-" && std::filesystem::is_directory(out))
         throw InputError(out + ": is a folder, not an output file");
+    {  // Two outputs on one path would share one temporary and clobber each other.
+      std::set<std::string> seen;
+      int to_stdout = 0;
+      for (const std::string& out : {common.json, common.csv}) to_stdout += out == "-";
+      if (to_stdout > 1) throw InputError("'-' (standard output) given to two outputs; at most one can use it");
+      for (const std::string& out : {common.json, common.csv}) {
+        if (out.empty() || out == "-") continue;
+        std::error_code ec;
+        const std::string key = std::filesystem::weakly_canonical(out, ec).string();
+        if (!seen.insert(ec ? out : key).second)
+          throw InputError(out + ": named by two outputs; give each output its own file");
+      }
+    }
     PropagateRequest req;
     req.floquet = floquet;
     AppSetup setup = setup_from_common(common, /*need_window=*/!floquet);

@@ -2,6 +2,7 @@
 // backwards over the window, writes the gain schedule, and checks the regulator in closed loop.
 #include <filesystem>
 #include <iostream>
+#include <set>
 
 #include "io/app.hpp"
 #include "io/csv.hpp"
@@ -19,7 +20,8 @@ const char* const kAbout =
     "x(t1)'Qf x(t1) + int (x'Qx + 2x'Nu + u'Ru) dt by solving the Riccati differential equation\n"
     "backwards from t1, and gives the gain schedule K(t) = R^-1 (B'P + N') of u = -K(t) x.\n"
     "Standard output: P(t0), K(t0) and, with --x0, the predicted and simulated cost.\n"
-    "--csv writes the gain schedule t,K_1_1,...,K_m_n on the --samples grid.";
+    "--csv writes the gain schedule t,K_1_1,...,K_m_n on the --samples grid.\n"
+    "Exit status: 0 done, 2 bad input, 3 numerical failure.";
 
 }  // namespace
 
@@ -64,6 +66,19 @@ int main(int argc, char** argv) {
       if (!out.empty() && out != "-" && std::filesystem::is_directory(out))
         throw ordex::InputError(out + ": is a folder, not an output file");
 
+    {  // Two outputs on one path would share one temporary and clobber each other.
+      std::set<std::string> seen;
+      int to_stdout = 0;
+      for (const std::string& out : {common.json, common.csv, p_csv, response_csv}) to_stdout += out == "-";
+      if (to_stdout > 1) throw ordex::InputError("'-' (standard output) given to two outputs; at most one can use it");
+      for (const std::string& out : {common.json, common.csv, p_csv, response_csv}) {
+        if (out.empty() || out == "-") continue;
+        std::error_code ec;
+        const std::string key = std::filesystem::weakly_canonical(out, ec).string();
+        if (!seen.insert(ec ? out : key).second)
+          throw ordex::InputError(out + ": named by two outputs; give each output its own file");
+      }
+    }
     ordex::Weights weights = weights_path.empty() ? ordex::default_weights(n, m)
                                                   : ordex::load_weights(weights_path, n, m);
     ordex::RegulatorOptions options;

@@ -19,7 +19,7 @@ class MagnusStepper : public StepperBase {
       : g_(g), o_(o), order_(order) {
     const int n = g.dim;
     for (auto* m : {&a1_, &a2_, &a3_, &omega_, &c1_, &c2_, &t1_, &t2_, &full_, &h1_, &h2_,
-                    &half_, &diff_, &xnew_, &err_})
+                    &half_, &diff_, &xnew_, &err_, &delta_})
       m->resize(n, n);
   }
 
@@ -41,6 +41,12 @@ class MagnusStepper : public StepperBase {
       if (hs >= remaining * (1 - 1e-12)) { hs = remaining; last = true; }
       else if (hs > 0.7 * remaining) hs = 0.5 * remaining;  // avoid a sliver at the end
       const double hd = dir * hs;
+      if (order_ == 6 && last && h_validated_ && hs <= 0.5 * h && short_leg(t, hd, X, error, stats)) {
+        t = b;
+        ++stats.steps;
+        ++steps_here;
+        break;
+      }
       step(t, hd, full_, stats);
       step(t, hd / 2, h1_, stats);
       step(t + hd / 2, hd / 2, h2_, stats);
@@ -62,6 +68,7 @@ class MagnusStepper : public StepperBase {
       double factor = e > 0 ? 0.9 * std::pow(e, -1.0 / (p + 1.0)) : 5.0;
       factor = std::min(5.0, std::max(0.2, factor));
       if (e <= 1.0) {
+        h_validated_ = true;
         diff_.noalias() = half_ * error;
         error = diff_ + err_;
         X.swap(xnew_);
@@ -96,6 +103,30 @@ class MagnusStepper : public StepperBase {
       throw NumericalError(g_.label + " is not finite at t = " + format_number(a));
     double h = nrm > 0 ? 0.5 * std::pow(o_.rtol, 1.0 / (order_ + 1)) / nrm : span;
     return std::min(h, span);
+  }
+
+  /// A leg much shorter than the step the controller has accepted (an output grid finer than
+  /// the natural step): one step, checked by the embedded fourth-order Omega from the same
+  /// nodes instead of step doubling, three times cheaper. Its local error is below
+  /// (1/2)^7 of an accepted step's; the embedded estimate overstates it, which is safe. When
+  /// even that estimate fails the tolerance, returns false and the caller steps as usual.
+  bool short_leg(double t, double hd, Eigen::MatrixXd& X, Eigen::MatrixXd& error, PropagationStats& stats) {
+    embedded_ = true;
+    step(t, hd, half_, stats);
+    embedded_ = false;
+    xnew_.noalias() = half_ * X;
+    err_.noalias() = delta_ * xnew_;  // exp(Omega6) - exp(Omega4) ~ (Omega6 - Omega4) exp(Omega6)
+    if (!xnew_.allFinite()) return false;
+    double sum = 0;
+    for (Eigen::Index k = 0; k < err_.size(); ++k) {
+      double r = err_(k) / (o_.atol + o_.rtol * std::abs(xnew_(k)));
+      sum += r * r;
+    }
+    if (std::sqrt(sum / static_cast<double>(err_.size())) > 1.0) return false;
+    diff_.noalias() = half_ * error;
+    error = diff_ + err_;
+    X.swap(xnew_);
+    return true;
   }
 
   /// S = exp(Omega) for the step from t of signed length h.
@@ -133,8 +164,10 @@ class MagnusStepper : public StepperBase {
       a1_ = -20.0 * al1 - a3_ + c1_;  // left factor
       a2_ = al2 + c2_;                // right factor
       omega_ = al1 + a3_ / 12.0;
+      if (embedded_) delta_ = omega_ - c1_ / 12.0;  // Omega4 = alpha1 + alpha3/12 - C1/12
       omega_.noalias() += (1.0 / 240.0) * (a1_ * a2_);
       omega_.noalias() -= (1.0 / 240.0) * (a2_ * a1_);
+      if (embedded_) delta_ = omega_ - delta_;      // Omega6 - Omega4
     }
     if (!omega_.allFinite())
       throw NumericalError(g_.label + " is not finite near t = " + format_number(t));
@@ -145,7 +178,9 @@ class MagnusStepper : public StepperBase {
   PropagationOptions o_;
   int order_;
   double h_desired_ = 0;
-  Eigen::MatrixXd a1_, a2_, a3_, omega_, c1_, c2_, t1_, t2_, full_, h1_, h2_, half_, diff_, xnew_, err_;
+  bool h_validated_ = false;  // a step of about h_desired_ has passed the error test
+  bool embedded_ = false;     // step() also forms delta_ = Omega6 - Omega4
+  Eigen::MatrixXd delta_, a1_, a2_, a3_, omega_, c1_, c2_, t1_, t2_, full_, h1_, h2_, half_, diff_, xnew_, err_;
   MatrixExponential expm_;
 };
 

@@ -62,7 +62,7 @@ int main(int argc, char** argv) {
     }
     if (!step_text.empty() && !times_path.empty())
       throw ordex::InputError("--step and --times: give one of them, not both");
-    const bool samples_given = !vm["samples"].defaulted();
+    const bool samples_given = vm.count("samples") > 0 && !vm["samples"].defaulted();
     if (samples_given && (!step_text.empty() || !times_path.empty()))
       throw ordex::InputError("--samples: not used with --step or --times (they set the grid)");
     if (!times_path.empty() && (!c.from.empty() || !c.to.empty()))
@@ -93,7 +93,7 @@ int main(int argc, char** argv) {
     if (!c.csv.empty()) ordex::write_discrete_model_csv(c.csv, rep.model);
     if (json_out) json_out->commit();
     if (c.json == "-") ordex::write_json_file(c.json, ordex::discretize_report_json(rep, *s.system));
-    if (c.json != "-") std::cout << ordex::discretize_report_text(rep, *s.system) << ordex::kHardwareCaution << "\n";
+    if (ordex::report_to_stdout(c)) std::cout << ordex::discretize_report_text(rep, *s.system) << ordex::kHardwareCaution << "\n";
     return 0;
   });
 }

@@ -221,11 +221,8 @@ int main(int argc, char** argv) {
     if (csv) csv->commit();
     if (inputs_csv) inputs_csv->commit();
     if (json_out) json_out->commit();
-    if (common.json == "-") {
-      std::cout << j.dump(2) << std::endl;
-    } else {
-      rep.print(std::cout);
-    }
+    if (common.json == "-") std::cout << j.dump(2) << std::endl;
+    else if (report_to_stdout(common) && input_out != "-") rep.print(std::cout);
     return 0;
   });
 }

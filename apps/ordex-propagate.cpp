@@ -94,7 +94,7 @@ int main(int argc, char** argv) {
     }
     if (json_out) json_out->commit();
     if (common.json == "-") write_json_file(common.json, propagate_report_json(*setup.system, rep));
-    if (common.json != "-") print_propagate_report(std::cout, *setup.system, rep);
+    if (report_to_stdout(common)) print_propagate_report(std::cout, *setup.system, rep);
     return 0;
   });
 }

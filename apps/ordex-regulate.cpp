@@ -139,7 +139,7 @@ int main(int argc, char** argv) {
     if (run_csv) run_csv->commit();
     if (json_out) json_out->commit();
     if (common.json == "-") ordex::write_json_file(common.json, report.to_json());
-    if (common.json != "-") report.print(std::cout);
+    if (ordex::report_to_stdout(common)) report.print(std::cout);
     return 0;
   });
 }

@@ -81,7 +81,7 @@ int main(int argc, char** argv) {
     for (const std::string& p : inputs) histories.push_back(ordex::read_input_history(p, sys));
 
     // Window: --from/--to, else [window], else the span the histories share.
-    const bool samples_given = !vm["samples"].defaulted();
+    const bool samples_given = vm.count("samples") > 0 && !vm["samples"].defaulted();
     std::optional<double> from, to;
     if (!c.from.empty()) from = ordex::evaluate_constant(c.from, "--from");
     if (!c.to.empty()) to = ordex::evaluate_constant(c.to, "--to");
@@ -110,6 +110,12 @@ int main(int argc, char** argv) {
       }
       if (samples_given) o.sample_times = ordex::linspace(o.window->first, o.window->second, c.samples);
     }
+    // A window the model cannot evaluate (a table that does not extrapolate) fails before any work.
+    if (o.window)
+      s.system->require_defined_on(o.window->first, o.window->second, "--from/--to");
+    else
+      for (const auto& h : histories)
+        s.system->require_defined_on(h.times.front(), h.times.back(), h.source + ": the input's time span");
 
     // Output names are settled before the computation, so a clash fails fast.
     std::vector<std::string> csv_paths;
@@ -164,7 +170,7 @@ int main(int argc, char** argv) {
     for (std::size_t i = 0; i < csv_paths.size(); ++i) ordex::write_run_csv(csv_paths[i], sys, rep.runs[i]);
     if (json_out) json_out->commit();
     if (c.json == "-") ordex::write_json_file(c.json, ordex::respond_report_json(rep, sys));
-    if (c.json != "-") std::cout << ordex::respond_report_text(rep, sys);
+    if (ordex::report_to_stdout(c)) std::cout << ordex::respond_report_text(rep, sys);
     return 0;
   });
 }

@@ -106,3 +106,18 @@ TEST(CliPropagate, NumericalFailureIsExitThreeWithNoOutputFile) {
     EXPECT_FALSE(ordex_test::file_exists(json)) << method;
   }
 }
+
+TEST(CliPropagate, StrayArgumentsAndWindowsOutsideTheDataAreBadInput) {
+  expect_error(run_app("ordex-propagate", "--model " + model_path("mathieu.toml") + " stray"), 2, "stray");
+  // The vehicle model's speed table covers [0, 20] s and refuses to extrapolate: a longer
+  // window fails before any work, naming the window and the table.
+  expect_error(run_app("ordex-propagate", "--model " + model_path("vehicle_lateral.toml") + " --from 0 --to 1000"),
+               2, "vehicle_speed.csv");
+}
+
+TEST(CliPropagate, CsvToStandardOutputIsOnlyTheCsv) {
+  auto r = run_app("ordex-propagate", "--model " + model_path("mathieu.toml") + " --samples 3 --csv -");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  EXPECT_EQ(ordex_test::line_count(r.out), 4) << r.out;  // header and three rows, no report
+  EXPECT_EQ(r.out.rfind("t,phi_1_1", 0), 0u);
+}

@@ -57,7 +57,9 @@ void add_common_options(po::options_description& desc, CommonOptions& c,
        "relative tolerance of the propagation")
       ("atol", po::value(&c.atol)->value_name("A")->default_value(1e-10, "1e-10"),
        "absolute tolerance of the propagation")
-      ("samples", po::value(&c.samples)->value_name("N")->default_value(c.samples),
+      ("samples",
+       samples_help.empty() ? po::value(&c.samples)->value_name("N")->default_value(c.samples)
+                            : po::value(&c.samples)->value_name("N"),
        samples_help.empty() ? "equally spaced output times in the window, both ends included"
                             : samples_help.c_str())
       ("json", po::value(&c.json)->value_name("PATH"),
@@ -68,7 +70,20 @@ void add_common_options(po::options_description& desc, CommonOptions& c,
 bool parse_command_line(int argc, char** argv, const po::options_description& desc,
                         po::variables_map& vm, const std::string& app, const std::string& usage,
                         const std::string& about) {
-  po::store(po::command_line_parser(argc, argv).options(desc).run(), vm);
+  // Arguments that belong to no option are collected so that they can be named in the error
+  // (program_options would otherwise ignore them or reject them without saying which).
+  std::vector<std::string> stray;
+  po::options_description hidden;
+  hidden.add_options()("ordex-stray-argument", po::value(&stray));
+  po::options_description all;
+  all.add(desc).add(hidden);
+  po::positional_options_description positional;
+  positional.add("ordex-stray-argument", -1);
+  po::store(po::command_line_parser(argc, argv).options(all).positional(positional).run(), vm);
+  if (vm.count("ordex-stray-argument")) {
+    const auto& args = vm["ordex-stray-argument"].as<std::vector<std::string>>();
+    throw InputError("unexpected argument '" + args.front() + "' (options start with --; see --help)");
+  }
   if (vm.count("help")) {
     std::cout << "Usage: " << usage << "\n\n" << about << "\n\n" << desc << std::endl;
     return false;
@@ -105,6 +120,7 @@ AppSetup setup_from_common(const CommonOptions& c, bool need_window) {
   }
   s.t0 = from.value_or(0.0);
   s.t1 = to.value_or(0.0);
+  if (from && to) s.system->require_defined_on(s.t0, s.t1, "--from/--to");
   s.propagation.method = parse_method(c.method);
   s.propagation.rtol = c.rtol;
   s.propagation.atol = c.atol;

@@ -52,6 +52,10 @@ bool parse_command_line(int argc, char** argv, const po::options_description& de
                         po::variables_map& vm, const std::string& app, const std::string& usage,
                         const std::string& about);
 
+/// Whether the short human-readable report goes to standard output: not when --json - or
+/// --csv - already writes machine-readable data there.
+inline bool report_to_stdout(const CommonOptions& c) { return c.json != "-" && c.csv != "-"; }
+
 /// The model, window, engine options and sample grid resolved from the common options.
 struct AppSetup {
   std::unique_ptr<System> system;

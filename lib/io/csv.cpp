@@ -3,6 +3,7 @@
 #include <cerrno>
 #include <cmath>
 #include <cstdlib>
+#include <filesystem>
 #include <fstream>
 #include <sstream>
 
@@ -30,6 +31,7 @@ std::vector<std::string> split(const std::string& line) {
 }  // namespace
 
 CsvTable read_csv(const std::string& path) {
+  if (std::filesystem::is_directory(path)) throw InputError(path + ": is a folder, not a CSV file");
   std::ifstream in(path);
   if (!in) throw InputError(path + ": cannot open for reading");
   CsvTable t;

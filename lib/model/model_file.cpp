@@ -398,6 +398,16 @@ void ModelReader::read_window() {
     if (!(a < b)) fail("table", "the tables' time spans do not overlap");
     info.window = std::make_pair(a, b);
   }
+  for (const TableSpec& ts : spec_.tables)
+    if (ts.table->options().outside == OutsidePolicy::error) {
+      double a = ts.table->first_time(), b = ts.table->last_time();
+      if (info.defined_span) {
+        a = std::max(a, info.defined_span->first);
+        b = std::min(b, info.defined_span->second);
+      }
+      info.defined_span = std::make_pair(a, b);
+      info.defined_by += (info.defined_by.empty() ? "" : " and ") + ts.table->path();
+    }
   if (info.window) {
     double lo = std::min(info.window->first, info.window->second);
     double hi = std::max(info.window->first, info.window->second);

@@ -25,6 +25,10 @@ struct SystemInfo {
   std::optional<double> period;            ///< A, B, C, D repeat with this period
   std::vector<double> breakpoints;         ///< ascending times where entries may jump
   std::optional<std::pair<double, double>> window;  ///< default [from, to]
+  /// Times outside which the model cannot be evaluated (tables that refuse to extrapolate);
+  /// empty: defined for every t. DEFINED_BY names what limits it (a table's file).
+  std::optional<std::pair<double, double>> defined_span;
+  std::string defined_by;
 };
 
 class System {
@@ -61,6 +65,10 @@ class System {
 
   /// Sorted breakpoints strictly inside (a, b) (either order of a and b).
   std::vector<double> breakpoints_between(double a, double b) const;
+
+  /// Throws InputError naming WHAT (e.g. "--from/--to") when [a, b] reaches outside
+  /// info().defined_span, so a window the model cannot cover fails before any work.
+  void require_defined_on(double a, double b, const std::string& what) const;
 
  protected:
   SystemInfo info_;

@@ -14,9 +14,10 @@ namespace {
 
 double sign(double x) { return (x > 0) - (x < 0); }
 
-// One-sided three-point slope at an end, limited to keep the curve's shape (Moler, Numerical
-// Computing with MATLAB, sec. 3.4 "pchip"): H0, M0 belong to the end interval, H1, M1 to its
-// neighbour.
+// One-sided three-point slope at an end, limited to keep the curve's shape (the usual
+// shape-preserving end condition of monotone piecewise cubic interpolation, Fritsch & Carlson,
+// SIAM J. Numer. Anal. 17 (1980) 238-246, and scipy's PchipInterpolator, which the tests
+// compare against): H0, M0 belong to the end interval, H1, M1 to its neighbour.
 double end_slope(double h0, double h1, double m0, double m1) {
   double d = ((2 * h0 + h1) * m0 - h0 * m1) / (h0 + h1);
   if (sign(d) != sign(m0)) return 0.0;

@@ -44,22 +44,7 @@ int main(int argc, char** argv) {
       return 0;
     if (vm.count("step") && step_text.empty()) throw ordex::InputError("--step: empty value");
     if (vm.count("times") && times_path.empty()) throw ordex::InputError("--times: empty path");
-    for (const std::string& out : {c.json, c.csv})
-      if (!out.empty() && out != "-" && std::filesystem::is_directory(out))
-        throw ordex::InputError(out + ": is a folder, not an output file");
-    {  // Two outputs on one path would share one temporary and clobber each other.
-      std::set<std::string> seen;
-      int to_stdout = 0;
-      for (const std::string& out : {c.json, c.csv}) to_stdout += out == "-";
-      if (to_stdout > 1) throw ordex::InputError("'-' (standard output) given to two outputs; at most one can use it");
-      for (const std::string& out : {c.json, c.csv}) {
-        if (out.empty() || out == "-") continue;
-        std::error_code ec;
-        const std::string key = std::filesystem::weakly_canonical(out, ec).string();
-        if (!seen.insert(ec ? out : key).second)
-          throw ordex::InputError(out + ": named by two outputs; give each output its own file");
-      }
-    }
+    ordex::check_output_paths({c.json, c.csv});
     if (!step_text.empty() && !times_path.empty())
       throw ordex::InputError("--step and --times: give one of them, not both");
     const bool samples_given = vm.count("samples") > 0 && !vm["samples"].defaulted();

@@ -72,22 +72,7 @@ int main(int argc, char** argv) {
       return 0;
 
     // Everything is checked before any work is done or any file is opened.
-    for (const std::string& out : {common.json, common.csv, input_out})
-      if (!out.empty() && out != "-" && std::filesystem::is_directory(out))
-        throw InputError(out + ": is a folder, not an output file");
-    {  // Two outputs on one path would share one temporary and clobber each other.
-      std::set<std::string> seen;
-      int to_stdout = 0;
-      for (const std::string& out : {common.json, common.csv, input_out}) to_stdout += out == "-";
-      if (to_stdout > 1) throw InputError("'-' (standard output) given to two outputs; at most one can use it");
-      for (const std::string& out : {common.json, common.csv, input_out}) {
-        if (out.empty() || out == "-") continue;
-        std::error_code ec;
-        const std::string key = std::filesystem::weakly_canonical(out, ec).string();
-        if (!seen.insert(ec ? out : key).second)
-          throw InputError(out + ": named by two outputs; give each output its own file");
-      }
-    }
+    check_output_paths({common.json, common.csv, input_out});
     if (vm.count("window-length") && !(check_fraction > 0 && check_fraction <= 1))
       throw InputError("--profile-check: " + format_number(check_fraction) + " is not in (0, 1]");
     GramianOptions gopt;

@@ -36,22 +36,7 @@ int main(int argc, char** argv) {
                             "--csv writes t,phi_1_1,...,phi_n_n (row-major) at the --samples times.\n"
                             "Exit status: 0 done, 2 bad input, 3 numerical failure."))
       return 0;
-    for (const std::string& out : {common.json, common.csv})
-      if (!out.empty() && out != "-" && std::filesystem::is_directory(out))
-        throw InputError(out + ": is a folder, not an output file");
-    {  // Two outputs on one path would share one temporary and clobber each other.
-      std::set<std::string> seen;
-      int to_stdout = 0;
-      for (const std::string& out : {common.json, common.csv}) to_stdout += out == "-";
-      if (to_stdout > 1) throw InputError("'-' (standard output) given to two outputs; at most one can use it");
-      for (const std::string& out : {common.json, common.csv}) {
-        if (out.empty() || out == "-") continue;
-        std::error_code ec;
-        const std::string key = std::filesystem::weakly_canonical(out, ec).string();
-        if (!seen.insert(ec ? out : key).second)
-          throw InputError(out + ": named by two outputs; give each output its own file");
-      }
-    }
+    check_output_paths({common.json, common.csv});
     PropagateRequest req;
     req.floquet = floquet;
     AppSetup setup = setup_from_common(common, /*need_window=*/!floquet);

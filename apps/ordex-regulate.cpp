@@ -62,23 +62,7 @@ int main(int argc, char** argv) {
     if (vm.count("weights") && weights_path.empty()) throw ordex::InputError("--weights: empty path");
     if (!weights_path.empty() && std::filesystem::is_directory(weights_path))
       throw ordex::InputError(weights_path + ": is a folder, not a weights file");
-    for (const std::string& out : {common.json, common.csv, p_csv, response_csv})
-      if (!out.empty() && out != "-" && std::filesystem::is_directory(out))
-        throw ordex::InputError(out + ": is a folder, not an output file");
-
-    {  // Two outputs on one path would share one temporary and clobber each other.
-      std::set<std::string> seen;
-      int to_stdout = 0;
-      for (const std::string& out : {common.json, common.csv, p_csv, response_csv}) to_stdout += out == "-";
-      if (to_stdout > 1) throw ordex::InputError("'-' (standard output) given to two outputs; at most one can use it");
-      for (const std::string& out : {common.json, common.csv, p_csv, response_csv}) {
-        if (out.empty() || out == "-") continue;
-        std::error_code ec;
-        const std::string key = std::filesystem::weakly_canonical(out, ec).string();
-        if (!seen.insert(ec ? out : key).second)
-          throw ordex::InputError(out + ": named by two outputs; give each output its own file");
-      }
-    }
+    ordex::check_output_paths({common.json, common.csv, p_csv, response_csv});
     ordex::Weights weights = weights_path.empty() ? ordex::default_weights(n, m)
                                                   : ordex::load_weights(weights_path, n, m);
     ordex::RegulatorOptions options;

@@ -119,23 +119,10 @@ int main(int argc, char** argv) {
 
     // Output names are settled before the computation, so a clash fails fast.
     std::vector<std::string> csv_paths;
-    if (!c.json.empty() && c.json != "-" && std::filesystem::is_directory(c.json))
-      throw ordex::InputError(c.json + ": is a folder, not an output file");
     if (!c.csv.empty() && inputs.size() <= 1 && std::filesystem::is_directory(c.csv))
       throw ordex::InputError(c.csv + ": is a folder, not an output file (a folder is for several --input)");
-    {  // Two outputs on one path would share one temporary and clobber each other.
-      std::set<std::string> seen;
-      int to_stdout = 0;
-      for (const std::string& out : {c.json, c.csv}) to_stdout += out == "-";
-      if (to_stdout > 1) throw ordex::InputError("'-' (standard output) given to two outputs; at most one can use it");
-      for (const std::string& out : {c.json, c.csv}) {
-        if (out.empty() || out == "-") continue;
-        std::error_code ec;
-        const std::string key = std::filesystem::weakly_canonical(out, ec).string();
-        if (!seen.insert(ec ? out : key).second)
-          throw ordex::InputError(out + ": named by two outputs; give each output its own file");
-      }
-    }
+    // With several --input, --csv names a folder: only the JSON is a file to check then.
+    ordex::check_output_paths({c.json, inputs.size() <= 1 ? c.csv : std::string()});
     bool create_csv_folder = false;
     if (!c.csv.empty()) {
       if (inputs.size() <= 1) {

@@ -1,6 +1,8 @@
 #include "io/app.hpp"
 
 #include <chrono>
+#include <filesystem>
+#include <set>
 #include <cmath>
 #include <iostream>
 #include <sstream>
@@ -129,6 +131,24 @@ AppSetup setup_from_common(const CommonOptions& c, bool need_window) {
   if (c.samples > 10000000) throw InputError("--samples: at most 10000000");
   s.samples = linspace(s.t0, s.t1, c.samples);
   return s;
+}
+
+void check_output_paths(const std::vector<std::string>& paths) {
+  int to_stdout = 0;
+  std::set<std::string> seen;
+  for (const std::string& out : paths) {
+    if (out.empty()) continue;
+    if (out == "-") {
+      if (++to_stdout > 1)
+        throw InputError("'-' (standard output) given to two outputs; at most one can use it");
+      continue;
+    }
+    if (std::filesystem::is_directory(out)) throw InputError(out + ": is a folder, not an output file");
+    std::error_code ec;
+    const std::string key = std::filesystem::weakly_canonical(out, ec).string();
+    if (!seen.insert(ec ? out : key).second)
+      throw InputError(out + ": named by two outputs; give each output its own file");
+  }
 }
 
 Eigen::VectorXd parse_vector(const std::string& text, int expected, const std::string& option,

@@ -52,6 +52,11 @@ bool parse_command_line(int argc, char** argv, const po::options_description& de
                         po::variables_map& vm, const std::string& app, const std::string& usage,
                         const std::string& about);
 
+/// Checks the output paths before any work: none is an existing folder, no two name the same
+/// file (they would share one temporary and clobber each other), and at most one is "-"
+/// (standard output). Empty entries are outputs not asked for. Throws InputError.
+void check_output_paths(const std::vector<std::string>& paths);
+
 /// Whether the short human-readable report goes to standard output: not when --json - or
 /// --csv - already writes machine-readable data there.
 inline bool report_to_stdout(const CommonOptions& c) { return c.json != "-" && c.csv != "-"; }

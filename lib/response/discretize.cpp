@@ -7,6 +7,7 @@
 
 #include "io/csv.hpp"
 #include "io/errors.hpp"
+#include "propagation/stats_json.hpp"
 
 namespace ordex {
 
@@ -124,10 +125,7 @@ Json discretize_report_json(const DiscretizeReport& rep, const System& sys) {
     j["gamma0"] = g0;
     j["gamma1"] = g1;
   }
-  j["steps"] = rep.propagation.steps;
-  j["rejected_steps"] = rep.propagation.rejected_steps;
-  j["matrix_evaluations"] = rep.propagation.evaluations;
-  j["error_estimate"] = number_to_json(rep.propagation.error_estimate);
+  add_propagation_stats(j, rep.propagation);
   j["interval_steps_computed"] = rep.computed_steps;
   j["interval_steps_reused"] = rep.reused_steps;
   j["time_invariant"] = rep.time_invariant;

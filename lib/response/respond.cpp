@@ -9,6 +9,7 @@
 
 #include "io/csv.hpp"
 #include "io/errors.hpp"
+#include "propagation/stats_json.hpp"
 #include "io/output_file.hpp"
 #include "response/direct_path.hpp"
 #include "response/step_matrices.hpp"
@@ -306,10 +307,7 @@ Json respond_report_json(const RespondReport& rep, const System& sys) {
   j["runs"] = runs;
   j["grids"] = rep.grids;
   if (rep.path == ResponsePath::Exact) {
-    j["steps"] = rep.propagation.steps;
-    j["rejected_steps"] = rep.propagation.rejected_steps;
-    j["matrix_evaluations"] = rep.propagation.evaluations;
-    j["error_estimate"] = number_to_json(rep.propagation.error_estimate);
+    add_propagation_stats(j, rep.propagation);
     j["interval_steps_computed"] = rep.computed_steps;
     j["interval_steps_reused"] = rep.reused_steps;
     j["time_invariant"] = rep.time_invariant;

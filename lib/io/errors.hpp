@@ -6,18 +6,24 @@
 
 namespace ordex {
 
+/// Every failure the library reports; catch this to handle both kinds below.
+class Error : public std::runtime_error {
+ public:
+  explicit Error(const std::string& what) : std::runtime_error(what) {}
+};
+
 /// Bad usage or bad input: malformed or inconsistent model, unknown symbol, bad CSV,
 /// wrong-sized vector, invalid option. The message names the file and key or line. Exit 2.
-class InputError : public std::runtime_error {
+class InputError : public Error {
  public:
-  explicit InputError(const std::string& what) : std::runtime_error(what) {}
+  explicit InputError(const std::string& what) : Error(what) {}
 };
 
 /// Numerical failure: integrator failure, non-finite values, a singular matrix that must be
 /// inverted. The message says what failed and at which t. Exit 3.
-class NumericalError : public std::runtime_error {
+class NumericalError : public Error {
  public:
-  explicit NumericalError(const std::string& what) : std::runtime_error(what) {}
+  explicit NumericalError(const std::string& what) : Error(what) {}
 };
 
 /// Exit status of the apps.

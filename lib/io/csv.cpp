@@ -3,11 +3,10 @@
 #include <cerrno>
 #include <cmath>
 #include <cstdlib>
-#include <filesystem>
-#include <fstream>
 #include <sstream>
 
 #include "io/errors.hpp"
+#include "io/input_file.hpp"
 
 namespace ordex {
 namespace {
@@ -28,41 +27,66 @@ std::vector<std::string> split(const std::string& line) {
   return out;
 }
 
+// The message for a file whose fields are separated by something else than a comma (a
+// spreadsheet in a decimal-comma locale writes "0,5;1,2"; others write tabs).
+std::string separator_problem(const std::string& line) {
+  if (line.find(';') != std::string::npos) return "fields are separated by ';'";
+  if (line.find('\t') != std::string::npos) return "fields are separated by tabs";
+  return "";
+}
+
+[[noreturn]] void fail_separator(const std::string& where, const std::string& problem) {
+  throw InputError(where + problem + "; the separator must be a comma (and numbers use a decimal point)");
+}
+
 }  // namespace
 
 CsvTable read_csv(const std::string& path) {
-  if (std::filesystem::is_directory(path)) throw InputError(path + ": is a folder, not a CSV file");
-  std::ifstream in(path);
-  if (!in) throw InputError(path + ": cannot open for reading");
+  LineReader in(path, "CSV file");
   CsvTable t;
   t.path = path;
   std::vector<std::vector<double>> rows;
   std::string line;
-  int lineno = 0;
-  while (std::getline(in, line)) {
-    ++lineno;
+  while (in.next(line)) {
+    const int lineno = in.line_number();
+    const std::string where = path + ":" + std::to_string(lineno) + ": ";
     std::string s = trim(line);
     if (s.empty() || s[0] == '#') continue;
     std::vector<std::string> fields = split(s);
     if (t.header.empty()) {
-      for (const auto& f : fields)
-        if (f.empty()) throw InputError(path + ":" + std::to_string(lineno) + ": empty column name in header");
+      // Spreadsheets end every line with a separator: a last column without a name is empty.
+      if (fields.size() > 1 && fields.back().empty()) fields.pop_back();
+      for (const auto& f : fields) {
+        std::string sep = separator_problem(f);
+        if (!sep.empty()) fail_separator(where, sep);
+        if (f.empty()) throw InputError(where + "empty column name in header");
+      }
       t.header = fields;
       t.header_line = lineno;
       continue;
     }
-    if (fields.size() != t.header.size())
-      throw InputError(path + ":" + std::to_string(lineno) + ": " + std::to_string(fields.size()) +
-                       " fields, the header has " + std::to_string(t.header.size()));
+    // A spreadsheet's trailing separator, with or without an unnamed last header column.
+    if (fields.size() == t.header.size() + 1 && fields.back().empty()) fields.pop_back();
+    if (fields.size() != t.header.size()) {
+      std::string sep = separator_problem(s);
+      if (!sep.empty()) fail_separator(where, sep);
+      throw InputError(where + std::to_string(fields.size()) + " fields, the header has " +
+                       std::to_string(t.header.size()) +
+                       (fields.size() > t.header.size() ? " (a decimal comma? numbers use a decimal point)" : ""));
+    }
     std::vector<double> r;
+    r.reserve(fields.size());
     for (std::size_t j = 0; j < fields.size(); ++j) {
       const std::string& f = fields[j];
       char* end = nullptr;
       errno = 0;
       double v = f.empty() ? 0.0 : std::strtod(f.c_str(), &end);
-      if (f.empty() || end == f.c_str() || *end != '\0' || !std::isfinite(v))
-        throw InputError(path + ":" + std::to_string(lineno) + ": column '" + t.header[j] +
-                         "': '" + f + "' is not a finite number");
+      if (f.empty() || end == f.c_str() || *end != '\0' || !std::isfinite(v)) {
+        std::string sep = separator_problem(f);
+        if (!sep.empty()) fail_separator(where, sep);
+        throw InputError(where + "column " + quote_clipped(t.header[j]) + ": " + quote_clipped(f) +
+                         " is not a finite number");
+      }
       r.push_back(v);
     }
     rows.push_back(std::move(r));
@@ -77,7 +101,8 @@ CsvTable read_csv(const std::string& path) {
 
 void require_time_column(const CsvTable& table, int min_rows) {
   if (table.header.empty() || table.header[0] != "t")
-    throw InputError(table.path + ":1: the first column must be named 't'");
+    throw InputError(table.path + ":" + std::to_string(table.header_line) +
+                     ": the first column must be named 't'");
   if (table.values.rows() < min_rows)
     throw InputError(table.path + ": " + std::to_string(table.values.rows()) +
                      " data rows, at least " + std::to_string(min_rows) + " are needed");

@@ -19,8 +19,12 @@ struct CsvTable {
   int header_line = 1;              ///< 1-based file line of the header row
 };
 
-/// Reads PATH. Blank lines and lines starting with '#' are skipped. Every data row must have as
-/// many fields as the header, each a finite number. Throws InputError "PATH:LINE: what".
+/// Reads PATH (bounded: see io/input_file.hpp). Blank lines and lines starting with '#' are
+/// skipped; a UTF-8 byte-order mark is ignored; one trailing empty column (the separator that
+/// spreadsheets put at the end of each line) is dropped. Every data row must have as many
+/// fields as the header, each a finite number. Fields separated by ';' or tabs are refused
+/// with "the separator must be a comma". Throws InputError "PATH:LINE: what", quoting at most
+/// about 80 characters of a field.
 CsvTable read_csv(const std::string& path);
 
 /// Requires column 0 to be named "t" and strictly increasing, and at least MIN_ROWS rows.

@@ -32,4 +32,8 @@ enum ExitCode : int { kExitOk = 0, kExitInput = 2, kExitNumerical = 3 };
 /// Formats a double with full precision (17 significant digits) for messages.
 std::string format_number(double x);
 
+/// TEXT in single quotes for a message, cut to about MAX characters ("'abc...' (104857600
+/// characters)") so that a huge field or expression never floods the error line.
+std::string quote_clipped(const std::string& text, std::size_t max = 80);
+
 }  // namespace ordex

@@ -18,6 +18,14 @@ Json vector_to_json(const std::vector<double>& v);
 /// A number, or null when non-finite.
 Json number_to_json(double x);
 
+/// J as indented text (2 spaces), a newline not included. Strings that are not valid UTF-8
+/// (a file name in another encoding) are written with each invalid byte as the text \xNN
+/// instead of failing (nlohmann's type_error 316).
+std::string dump_json(const Json& j);
+
+/// TEXT made valid UTF-8: every byte that is not part of a well-formed sequence becomes \xNN.
+std::string utf8_escaped(const std::string& text);
+
 /// Writes J (indented) to PATH atomically; "-" is standard output.
 void write_json_file(const std::string& path, const Json& j);
 

@@ -12,6 +12,7 @@
 #include <set>
 
 #include "io/errors.hpp"
+#include "io/input_file.hpp"
 #include "model/expression.hpp"
 #include "model/expression_system.hpp"
 #include "model/spelling.hpp"
@@ -27,6 +28,18 @@ std::string type_name(const toml::node& n) {
   if (n.is_integer() || n.is_floating_point()) return "a number";
   if (n.is_boolean()) return "a boolean";
   return "a date or time";
+}
+
+// Names of states, inputs and outputs become CSV column names and symbols of expressions:
+// 't' is the time column of every CSV and the independent variable, and a name like a
+// function or the constant pi would shadow it in expressions.
+std::string reserved_name_problem(const std::string& name) {
+  if (name == "t") return "'t' is the independent variable (and the time column of every CSV)";
+  if (name == "pi") return "'pi' is a built-in constant";
+  const std::vector<std::string>& functions = function_names();
+  if (std::find(functions.begin(), functions.end(), name) != functions.end())
+    return quote_clipped(name) + " is a function name";
+  return "";
 }
 
 std::string join(const std::vector<std::string>& v) {
@@ -71,14 +84,10 @@ class ModelReader {
 };
 
 void ModelReader::parse_file() {
-  {
-    std::error_code ec;
-    if (std::filesystem::is_directory(path_, ec)) throw InputError(path_ + ": is a folder, not a model file");
-    std::ifstream probe(path_);
-    if (!probe) throw InputError(path_ + ": cannot open the model file");
-  }
+  // Bounded read: a folder, a device or a huge file is refused with the file named.
+  const std::string text = read_text_file(path_, "model file", input_limits().max_toml_bytes);
   try {
-    root_ = toml::parse_file(path_);
+    root_ = toml::parse(text, path_);
   } catch (const toml::parse_error& e) {
     const auto& b = e.source().begin;
     throw InputError(path_ + ":" + std::to_string(b.line) + ":" + std::to_string(b.column) +
@@ -125,7 +134,9 @@ std::vector<std::string> ModelReader::read_names(const toml::table& sys, const s
     bool blank = std::all_of(s.begin(), s.end(), [](char c) { return std::isspace(static_cast<unsigned char>(c)) != 0; });
     if (blank) fail(k, "empty name");
     if (s.find_first_of(",\"\n\r") != std::string::npos)
-      fail(k, "'" + s + "' contains a comma, quote or line break (names become CSV column names)");
+      fail(k, quote_clipped(s) + " contains a comma, quote or line break (names become CSV column names)");
+    const std::string reserved = reserved_name_problem(s);
+    if (!reserved.empty()) fail(k, reserved + "; choose another name");
     names.push_back(s);
   }
   return names;
@@ -151,7 +162,8 @@ void ModelReader::read_system() {
       auto it = seen.find(v[i]);
       if (it != seen.end())
         fail("system." + list + "[" + std::to_string(i + 1) + "]",
-             "'" + v[i] + "' is already " + it->second + " (names must be distinct)");
+             quote_clipped(v[i]) + " is already " + it->second +
+                 " (names must be distinct: they are the columns of one CSV)");
       seen[v[i]] = "a" + what + " name";
     }
   };
@@ -397,6 +409,7 @@ void ModelReader::read_window() {
     }
     if (!(a < b)) fail("table", "the tables' time spans do not overlap");
     info.window = std::make_pair(a, b);
+    info.window_from_tables = true;
   }
   for (const TableSpec& ts : spec_.tables)
     if (ts.table->options().outside == OutsidePolicy::error) {
@@ -443,6 +456,8 @@ std::unique_ptr<System> ModelReader::load(const ParameterOverrides& overrides) {
   }
   read_defines();
   read_tables();
+  info.files_read.push_back(path_);
+  for (const TableSpec& ts : spec_.tables) info.files_read.push_back(ts.table->path());
   read_matrices();
   read_window();
   for (const TableSpec& ts : spec_.tables)
@@ -451,9 +466,12 @@ std::unique_ptr<System> ModelReader::load(const ParameterOverrides& overrides) {
   info.breakpoints.erase(std::unique(info.breakpoints.begin(), info.breakpoints.end()),
                          info.breakpoints.end());
 
-  double t_check = info.window ? info.window->first : 0.0;
+  // Entries such as 1/t or log(t) are finite only on some windows: without a [window] the
+  // check waits for the window in force (System::require_defined_on, called by every job).
+  const std::optional<double> t_check =
+      info.window ? std::optional<double>(info.window->first) : std::nullopt;
   auto sys_out = std::make_unique<ExpressionSystem>(std::move(spec_));
-  sys_out->check_finite_at(t_check);
+  if (t_check) sys_out->check_finite_at(*t_check);
   return sys_out;
 }
 

@@ -1,10 +1,26 @@
 #include "model/system.hpp"
 
 #include <algorithm>
+#include <cmath>
 
 #include "io/errors.hpp"
 
 namespace ordex {
+namespace {
+
+void require_in_span(const SystemInfo& info, double a, double b, const std::string& what) {
+  if (!info.defined_span) return;
+  const double lo = std::min(a, b), hi = std::max(a, b);
+  const auto [first, last] = *info.defined_span;
+  // The same relative slack the tables allow at their ends.
+  const double slack = 1e-12 * std::max(1.0, last - first);
+  if (lo < first - slack || hi > last + slack)
+    throw InputError(what + ": the window [" + format_number(a) + ", " + format_number(b) +
+                     "] reaches outside the times of " + info.defined_by + " [" + format_number(first) +
+                     ", " + format_number(last) + "]");
+}
+
+}  // namespace
 
 Eigen::MatrixXd System::A(double t) const {
   Eigen::MatrixXd m(states(), states());
@@ -27,16 +43,21 @@ Eigen::MatrixXd System::D(double t) const {
   return m;
 }
 
+void System::check_finite_at(double t) const {
+  const Eigen::MatrixXd m[] = {A(t), B(t), C(t), D(t)};
+  const char* names[] = {"A", "B", "C", "D"};
+  for (int k = 0; k < 4; ++k)
+    for (Eigen::Index i = 0; i < m[k].rows(); ++i)
+      for (Eigen::Index j = 0; j < m[k].cols(); ++j)
+        if (!std::isfinite(m[k](i, j)))
+          throw InputError(info_.source + ": " + names[k] + "[" + std::to_string(i + 1) + "][" +
+                           std::to_string(j + 1) + "] is " + format_number(m[k](i, j)) + " at t = " +
+                           format_number(t));
+}
+
 void System::require_defined_on(double a, double b, const std::string& what) const {
-  if (!info_.defined_span) return;
-  const double lo = std::min(a, b), hi = std::max(a, b);
-  const auto [first, last] = *info_.defined_span;
-  // The same relative slack the tables allow at their ends.
-  const double slack = 1e-12 * std::max(1.0, last - first);
-  if (lo < first - slack || hi > last + slack)
-    throw InputError(what + ": the window [" + format_number(a) + ", " + format_number(b) +
-                     "] reaches outside the times of " + info_.defined_by + " [" + format_number(first) +
-                     ", " + format_number(last) + "]");
+  require_in_span(info_, a, b, what);
+  check_finite_at(a);
 }
 
 std::vector<double> System::breakpoints_between(double a, double b) const {

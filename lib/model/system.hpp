@@ -29,6 +29,12 @@ struct SystemInfo {
   /// empty: defined for every t. DEFINED_BY names what limits it (a table's file).
   std::optional<std::pair<double, double>> defined_span;
   std::string defined_by;
+  /// True when WINDOW is not a [window] the model declares but the common span of its tables
+  /// (the default of apps that have no other source for the window).
+  bool window_from_tables = false;
+  /// Every file the model was read from: the model file, then its tables' CSV files. The apps
+  /// refuse outputs that name one of them (check_outputs in io/output_file.hpp).
+  std::vector<std::string> files_read;
 };
 
 class System {
@@ -67,8 +73,14 @@ class System {
   std::vector<double> breakpoints_between(double a, double b) const;
 
   /// Throws InputError naming WHAT (e.g. "--from/--to") when [a, b] reaches outside
-  /// info().defined_span, so a window the model cannot cover fails before any work.
+  /// info().defined_span, so a window the model cannot cover fails before any work; then
+  /// checks that the model is finite at A, the start of the window in force (check_finite_at).
   void require_defined_on(double a, double b, const std::string& what) const;
+
+  /// Throws InputError when an entry of A, B, C or D is not finite at T, naming it (a model
+  /// with 1/t or log(t) cannot start at t = 0). The default evaluates the matrices; models that
+  /// know their entries' text override it to name the key.
+  virtual void check_finite_at(double t) const;
 
  protected:
   SystemInfo info_;

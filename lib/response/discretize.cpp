@@ -7,6 +7,7 @@
 
 #include "io/csv.hpp"
 #include "io/errors.hpp"
+#include "io/input_file.hpp"
 #include "propagation/stats_json.hpp"
 
 namespace ordex {
@@ -55,14 +56,12 @@ std::vector<double> step_grid(double t0, double t1, double h) {
 }
 
 std::vector<double> read_time_grid(const std::string& path) {
-  std::ifstream in(path);
-  if (!in) throw InputError(path + ": cannot open for reading");
+  LineReader in(path, "times file");  // bounded: a folder or /dev/zero is refused, named
   std::vector<double> t;
   std::string line;
-  int lineno = 0;
   bool first = true;
-  while (std::getline(in, line)) {
-    ++lineno;
+  while (in.next(line)) {
+    const int lineno = in.line_number();
     std::size_t b = line.find_first_not_of(" \t\r");
     if (b == std::string::npos || line[b] == '#') continue;
     std::size_t e = line.find_last_not_of(" \t\r");
@@ -72,7 +71,9 @@ std::vector<double> read_time_grid(const std::string& path) {
     char* end = nullptr;
     const double v = std::strtod(f.c_str(), &end);
     if (end == f.c_str() || *end != '\0' || !std::isfinite(v))
-      throw InputError(path + ":" + std::to_string(lineno) + ": '" + f + "' is not a finite number (one time a line)");
+      throw InputError(path + ":" + std::to_string(lineno) + ": " + quote_clipped(f) +
+                       (f.find_first_of(",;\t") != std::string::npos ? " holds several fields" : " is not a finite number") +
+                       " (one time a line)");
     if (!t.empty() && !(v > t.back()))
       throw InputError(path + ":" + std::to_string(lineno) + ": t is not strictly increasing");
     t.push_back(v);

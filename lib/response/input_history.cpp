@@ -2,7 +2,6 @@
 
 #include <algorithm>
 #include <cmath>
-#include <fstream>
 
 #include "io/csv.hpp"
 #include "io/errors.hpp"
@@ -40,8 +39,8 @@ InputHistory read_input_history(const std::string& path, const System& sys) {
     std::string where = path + ":" + std::to_string(table.header_line) + ": ";
     if (names.empty())
       throw InputError(where + "the model has no inputs, so an input history is not used");
-    throw InputError(where + "header '" + join(table.header) + "' does not match the model's inputs (expected '" +
-                     join(expected) + "')");
+    throw InputError(where + "header " + quote_clipped(join(table.header)) +
+                     " does not match the model's inputs (expected " + quote_clipped(join(expected)) + ")");
   }
   require_time_column(table, 2);
   InputHistory h;
@@ -59,7 +58,9 @@ InputHistory make_input_history(std::vector<double> times, Eigen::MatrixXd value
     throw InputError(source + ": " + std::to_string(times.size()) + " times but " +
                      std::to_string(values.rows()) + " rows of input values");
   for (std::size_t k = 0; k < times.size(); ++k) {
-    if (!std::isfinite(times[k]) || !values.row(k).allFinite())
+    // A model without inputs has a matrix with no columns: no row to look at (and its data
+    // pointer is null, so even an empty row view would offset it).
+    if (!std::isfinite(times[k]) || (values.cols() > 0 && !values.row(k).allFinite()))
       throw InputError(source + ": sample " + std::to_string(k) + " is not finite");
     if (k > 0 && !(times[k] > times[k - 1]))
       throw InputError(source + ": sample " + std::to_string(k) + ": t is not strictly increasing");
@@ -94,6 +95,21 @@ void input_at(const InputHistory& h, Hold hold, double t, Eigen::Ref<Eigen::Vect
     return;
   }
   input_on_interval(h, hold, interval_of(h.times, t), t, u);
+}
+
+std::string window_fit_warning(const InputHistory& h, double t0, double t1) {
+  const double lo = std::min(t0, t1), hi = std::max(t0, t1);
+  const auto first = std::lower_bound(h.times.begin(), h.times.end(), lo);
+  const auto last = std::upper_bound(h.times.begin(), h.times.end(), hi);
+  const std::size_t inside = static_cast<std::size_t>(last - first);
+  const std::size_t n = h.times.size();
+  // A history that has few samples of its own is not suspicious; one whose samples mostly miss
+  // the window is (times in milliseconds against a window in seconds).
+  if (inside >= kFewSamplesInWindow || inside == n) return "";
+  return h.source + ": only " + std::to_string(inside) + " of its " + std::to_string(n) +
+         " samples fall inside the window [" + format_number(t0) + ", " + format_number(t1) +
+         "] (its times run from " + format_number(h.times.front()) + " to " + format_number(h.times.back()) +
+         "; are they in the model's time unit?)";
 }
 
 }  // namespace ordex

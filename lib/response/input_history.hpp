@@ -42,6 +42,14 @@ InputHistory read_input_history(const std::string& path, const System& sys);
 InputHistory make_input_history(std::vector<double> times, Eigen::MatrixXd values,
                                 std::string source = "code");
 
+/// Fewer samples than this inside the window, out of more, draw window_fit_warning's line.
+constexpr std::size_t kFewSamplesInWindow = 5;
+
+/// Empty, or one line for standard error when fewer than kFewSamplesInWindow of H's samples
+/// (and not all of them) fall inside [T0, T1]: the input then barely shapes the run, which
+/// usually means its times are in another unit than the model's (milliseconds against seconds).
+std::string window_fit_warning(const InputHistory& h, double t0, double t1);
+
 /// The index j of the sample interval [times[j], times[j+1]] that holds T: the last j with
 /// times[j] <= T, clamped to 0 .. size-2 (so T == times.back() belongs to the last interval).
 std::size_t interval_of(const std::vector<double>& times, double t);

@@ -1,10 +1,10 @@
 #include "riccati/weights.hpp"
 
 #include <cmath>
-#include <fstream>
 #include <toml++/toml.h>
 
 #include "io/errors.hpp"
+#include "io/input_file.hpp"
 #include "riccati/time_expression.hpp"
 
 namespace ordex {
@@ -129,13 +129,10 @@ WeightMatrix read_matrix(const toml::node& node, const std::string& path, const 
 }  // namespace
 
 Weights load_weights(const std::string& path, int n, int m) {
-  {
-    std::ifstream probe(path);
-    if (!probe) throw InputError(path + ": cannot open the weights file");
-  }
+  const std::string text = read_text_file(path, "weights file", input_limits().max_toml_bytes);
   toml::table table;
   try {
-    table = toml::parse_file(path);
+    table = toml::parse(text, path);
   } catch (const toml::parse_error& e) {
     throw InputError(path + ":" + std::to_string(e.source().begin.line) + ": not valid TOML: " +
                      std::string(e.description()));
@@ -154,9 +151,20 @@ Weights load_weights(const std::string& path, int n, int m) {
       w.N = read_matrix(node, path, key, n, m);
       w.has_cross = true;
     } else {
-      throw InputError(path + ": unknown key '" + key + "' (a weights file has Q, R, Qf and N)");
+      throw InputError(path + ": unknown key " + quote_clipped(key) + " (a weights file has Q, R, Qf and N)");
     }
   }
+  const std::pair<const char*, const char*> defaults[] = {{"Q", "Q = I"}, {"R", "R = I"}, {"Qf", "Qf = 0"}};
+  std::string used;
+  for (const auto& [key, value] : defaults)
+    if (!table.contains(key)) {
+      w.defaults_used.push_back(key);
+      used += (used.empty() ? "" : ", ") + std::string(value);
+    }
+  if (table.empty())
+    w.note = path + " sets none of Q, R, Qf, N: the defaults " + used + " are used";
+  else if (!used.empty())
+    w.note = path + ": default" + (w.defaults_used.size() > 1 ? "s " : " ") + used + " used";
   return w;
 }
 

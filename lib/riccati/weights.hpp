@@ -44,14 +44,22 @@ struct Weights {
   WeightMatrix Q, R, Qf, N;
   bool has_cross = false;  ///< N was given (and may be nonzero)
   std::string source = "defaults";  ///< the weights file, or "defaults" / "code"
+  /// The keys of Q, R, Qf that the weights file left out, so that their defaults apply (N,
+  /// zero by default, is not listed); empty when the file set all three.
+  std::vector<std::string> defaults_used;
+  /// One line for the report when a weights file left keys to their defaults, e.g.
+  /// "w.toml sets none of Q, R, Qf, N: the defaults Q = I, R = I, Qf = 0 are used"; empty
+  /// otherwise (and for weights not read from a file).
+  std::string note;
 };
 
 /// Q = I (n x n), R = I (m x m), Qf = 0, N = 0 (CONTRACT.md defaults).
 Weights default_weights(int n, int m);
 
-/// Reads a weights file: top-level keys Q, R, Qf, N (any subset; absent ones take the defaults),
-/// each a matrix as a list of rows or a flat list meaning a diagonal; entries numbers or
-/// expression strings of t. Every mistake throws InputError "PATH: KEY...: what is wrong".
+/// Reads a weights file: top-level keys Q, R, Qf, N (any subset; absent ones take the defaults,
+/// listed in defaults_used and note), each a matrix as a list of rows or a flat list meaning a
+/// diagonal; entries numbers or expression strings of t. Every mistake throws InputError
+/// "PATH: KEY...: what is wrong".
 Weights load_weights(const std::string& path, int n, int m);
 
 /// Tolerances of check_weights.

@@ -5,7 +5,7 @@
 #include <set>
 #include <memory>
 
-#include "io/app.hpp"
+#include "common/front_end.hpp"
 #include "io/errors.hpp"
 #include "io/json.hpp"
 #include "io/output_file.hpp"

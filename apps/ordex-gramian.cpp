@@ -11,7 +11,7 @@
 #include "gramian/profile.hpp"
 #include "gramian/report.hpp"
 #include "gramian/transfer.hpp"
-#include "io/app.hpp"
+#include "common/front_end.hpp"
 #include "io/csv.hpp"
 #include "io/errors.hpp"
 #include "io/json.hpp"
@@ -201,13 +201,17 @@ int main(int argc, char** argv) {
       for (std::size_t k = 0; k < t.times.size(); ++k)
         inputs_csv->row(t.times[k], t.inputs.row(static_cast<Eigen::Index>(k)).transpose());
     }
-    const Json j = rep.to_json();
+    Json j = rep.to_json();
+    if (rep.transfer) j["caution"] = kHardwareCaution;  // steering inputs can drive hardware
     if (json_out) json_out->stream() << j.dump(2) << "\n";
     if (csv) csv->commit();
     if (inputs_csv) inputs_csv->commit();
     if (json_out) json_out->commit();
     if (common.json == "-") std::cout << j.dump(2) << std::endl;
-    else if (report_to_stdout(common) && input_out != "-") rep.print(std::cout);
+    else if (report_to_stdout(common) && input_out != "-") {
+      rep.print(std::cout);
+      if (rep.transfer) std::cout << kHardwareCaution << "\n";
+    }
     return 0;
   });
 }

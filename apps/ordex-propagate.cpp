@@ -7,7 +7,7 @@
 #include <set>
 #include <memory>
 
-#include "io/app.hpp"
+#include "common/front_end.hpp"
 #include "io/csv.hpp"
 #include "io/errors.hpp"
 #include "io/json.hpp"

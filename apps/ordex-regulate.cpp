@@ -4,7 +4,7 @@
 #include <iostream>
 #include <set>
 
-#include "io/app.hpp"
+#include "common/front_end.hpp"
 #include "io/csv.hpp"
 #include "io/errors.hpp"
 #include "io/json.hpp"
@@ -113,17 +113,22 @@ int main(int argc, char** argv) {
         run_csv->row(row);
       }
     }
+    ordex::Json report_json = report.to_json();
+    report_json["caution"] = ordex::kHardwareCaution;
     std::unique_ptr<ordex::OutputFile> json_out;
     if (!common.json.empty() && common.json != "-") {
       json_out = std::make_unique<ordex::OutputFile>(common.json);
-      json_out->stream() << report.to_json().dump(2) << "\n";
+      json_out->stream() << report_json.dump(2) << "\n";
     }
     if (gains_csv) gains_csv->commit();
     if (riccati_csv) riccati_csv->commit();
     if (run_csv) run_csv->commit();
     if (json_out) json_out->commit();
-    if (common.json == "-") ordex::write_json_file(common.json, report.to_json());
-    if (ordex::report_to_stdout(common)) report.print(std::cout);
+    if (common.json == "-") ordex::write_json_file(common.json, report_json);
+    if (ordex::report_to_stdout(common)) {
+      report.print(std::cout);
+      std::cout << ordex::kHardwareCaution << "\n";
+    }
     return 0;
   });
 }

@@ -6,7 +6,7 @@
 #include <memory>
 #include <set>
 
-#include "io/app.hpp"
+#include "common/front_end.hpp"
 #include "io/errors.hpp"
 #include "io/json.hpp"
 #include "io/output_file.hpp"

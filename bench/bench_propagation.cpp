@@ -47,7 +47,7 @@
 #include <string>
 #include <vector>
 
-#include "io/app.hpp"
+#include "common/front_end.hpp"
 #include "io/errors.hpp"
 #include "io/json.hpp"
 #include "model/function_system.hpp"

@@ -12,7 +12,7 @@
 #include <string>
 #include <vector>
 
-#include "io/app.hpp"
+#include "model/time_grid.hpp"
 #include "model/function_system.hpp"
 #include "model/model_file.hpp"
 #include "propagation/symmetric_packing.hpp"

@@ -7,7 +7,7 @@
 
 #include "gramian/gramian.hpp"
 #include "gramian/gramian_lyapunov.hpp"
-#include "io/app.hpp"
+#include "model/time_grid.hpp"
 #include "model/function_system.hpp"
 #include "support.hpp"
 

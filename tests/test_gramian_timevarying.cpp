@@ -9,7 +9,7 @@
 #include "gramian/gramian.hpp"
 #include "gramian/gramian_sweep.hpp"
 #include "gramian/spectrum.hpp"
-#include "io/app.hpp"
+#include "model/time_grid.hpp"
 #include "io/errors.hpp"
 #include "model/function_system.hpp"
 #include "support.hpp"

@@ -9,7 +9,7 @@
 
 #include "gramian/gramian_sweep.hpp"
 #include "gramian/transfer.hpp"
-#include "io/app.hpp"
+#include "model/time_grid.hpp"
 #include "io/csv.hpp"
 #include "io/errors.hpp"
 #include "model/function_system.hpp"

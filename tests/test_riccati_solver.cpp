@@ -6,7 +6,7 @@
 #include <cmath>
 #include <nlohmann/json.hpp>
 
-#include "io/app.hpp"
+#include "model/time_grid.hpp"
 #include "io/errors.hpp"
 #include "model/function_system.hpp"
 #include "model/model_file.hpp"

@@ -1,4 +1,4 @@
-#include "io/app.hpp"
+#include "common/front_end.hpp"
 
 #include <chrono>
 #include <filesystem>
@@ -163,14 +163,6 @@ Eigen::VectorXd parse_vector(const std::string& text, int expected, const std::s
     throw InputError(option + ": " + std::to_string(v.size()) + " entries, the model has " +
                      std::to_string(expected) + " " + what);
   return Eigen::Map<Eigen::VectorXd>(v.data(), static_cast<Eigen::Index>(v.size()));
-}
-
-std::vector<double> linspace(double a, double b, int n) {
-  if (n <= 1) return {b};
-  std::vector<double> t(static_cast<std::size_t>(n));
-  for (int k = 0; k < n; ++k) t[k] = a + (b - a) * static_cast<double>(k) / (n - 1);
-  t.back() = b;
-  return t;
 }
 
 std::function<void(double)> terminal_progress(const std::string& app) {

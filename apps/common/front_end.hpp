@@ -16,6 +16,7 @@
 #include <vector>
 
 #include "model/system.hpp"
+#include "model/time_grid.hpp"
 #include "propagation/options.hpp"
 
 namespace ordex {
@@ -77,9 +78,6 @@ AppSetup setup_from_common(const CommonOptions& c, bool need_window = true);
 /// OPTION names it in messages ("--x0: 3 entries, the model has 4 states").
 Eigen::VectorXd parse_vector(const std::string& text, int expected, const std::string& option,
                              const std::string& what = "states");
-
-/// Equally spaced times from a to b, both ends included (n >= 2; n == 1 gives {b}).
-std::vector<double> linspace(double a, double b, int n);
 
 /// A progress reporter for long runs: writes "APP: NN%" to standard error now and then when
 /// standard error is a terminal, and nothing otherwise.

@@ -3,7 +3,6 @@
 #include <algorithm>
 #include <iomanip>
 
-#include "io/app.hpp"
 
 namespace ordex {
 
@@ -71,7 +70,6 @@ Json GramianReport::to_json() const {
     tr["samples"] = t.times.size();
     tr["reachability_condition"] = number_to_json(t.reachability.condition);
     j["transfer"] = tr;
-    j["caution"] = kHardwareCaution;
   }
   if (profile) {
     Json p;
@@ -111,7 +109,6 @@ void GramianReport::print(std::ostream& out) const {
     out << "  peak input: " << t.peak_input << "\n";
     out << "  final error of the replayed input law: " << t.final_error
         << "; of the sampled history, linearly interpolated: " << t.final_error_sampled << "\n";
-    out << kHardwareCaution << "\n";
   }
   if (profile) {
     out << "sliding windows: " << profile->windows.size() << " of length " << profile_options.window_length

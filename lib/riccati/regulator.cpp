@@ -4,7 +4,6 @@
 #include <iomanip>
 #include <sstream>
 
-#include "io/app.hpp"
 #include "io/errors.hpp"
 #include "riccati/riccati_routes.hpp"
 
@@ -140,7 +139,6 @@ Json RegulatorReport::to_json() const {
                 {"seconds", riccati.seconds},
                 {"closed_loop_steps", closed_loop_stats.steps}};
   if (run) j["stats"]["simulation_steps"] = run->stats.steps;
-  j["caution"] = kHardwareCaution;
   return j;
 }
 
@@ -173,7 +171,6 @@ void RegulatorReport::print(std::ostream& out) const {
         << "]: |mu| max " << floquet->floquet.largest_modulus << " ("
         << (floquet->floquet.stable ? "stable" : "not stable") << ")\n";
   }
-  out << kHardwareCaution << "\n";
 }
 
 }  // namespace ordex

@@ -51,7 +51,7 @@ struct RegulatorReport {
   /// The summary of CONTRACT.md (P0, K0, cost_predicted, cost_simulated, x_final) plus
   /// app, solver, engine method, closed-loop matrix, Floquet multipliers and stats.
   Json to_json() const;
-  /// A short human-readable report, ending with the hardware caution.
+  /// A short human-readable report (the app adds the hardware caution).
   void print(std::ostream& out) const;
 };
 

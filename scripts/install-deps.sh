@@ -4,7 +4,8 @@
 set -euo pipefail
 packages=(build-essential cmake pkg-config libeigen3-dev libsundials-dev libboost-dev
           libboost-program-options-dev libtomlplusplus-dev libmuparser-dev nlohmann-json3-dev
-          libgtest-dev python3-numpy python3-scipy)
+          libgtest-dev python3-numpy python3-scipy
+          clang libclang-rt-dev)  # clang + libFuzzer and sanitizer runtimes: scripts/test-fuzz.sh
 missing=()
 for p in "${packages[@]}"; do
   dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" || missing+=("$p")

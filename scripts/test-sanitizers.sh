@@ -1,0 +1,18 @@
+#!/usr/bin/env bash
+# The whole test suite again, built with AddressSanitizer + UndefinedBehaviorSanitizer in
+# build-asan/ (Debug at -O1: the cheapest build that still runs the suite in reasonable time).
+# Any sanitizer report stops the process that made it (-fno-sanitize-recover=all,
+# halt_on_error), so the test fails; the tests that run the apps run the sanitized apps.
+# The package tests (label "package") are left out: they rebuild the library without the
+# sanitizers and test the packaging, which the plain run of scripts/test.sh covers.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+flags="-O1 -g -fno-omit-frame-pointer -fsanitize=address,undefined -fno-sanitize-recover=all"
+cmake -S . -B build-asan -DCMAKE_BUILD_TYPE=Debug -DORDEX_TESTS=ON -DORDEX_NATIVE=OFF \
+      -DCMAKE_CXX_FLAGS="$flags" -DCMAKE_EXE_LINKER_FLAGS="-fsanitize=address,undefined" \
+      -DCMAKE_SHARED_LINKER_FLAGS="-fsanitize=address,undefined" "$@" >/dev/null
+cmake --build build-asan -j2
+export ASAN_OPTIONS="halt_on_error=1:detect_leaks=1:detect_stack_use_after_return=0:strict_string_checks=1"
+export UBSAN_OPTIONS="halt_on_error=1:print_stacktrace=1"
+cd build-asan
+ctest --output-on-failure -j2 --timeout 2700 -LE package

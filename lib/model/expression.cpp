@@ -89,7 +89,7 @@ struct Scan {
 Scan scan(const std::string& text, const SymbolScope& scope,
           const std::map<std::string, std::string>& unavailable, const std::string& where) {
   Scan out;
-  const std::string quoted = "'" + text + "'";
+  const std::string quoted = quote_clipped(text);  // a huge expression is not echoed whole
   std::size_t i = 0, n = text.size();
   while (i < n) {
     char c = text[i];
@@ -118,13 +118,13 @@ Scan scan(const std::string& text, const SymbolScope& scope,
       if (call) {
         if (is_function(name)) continue;
         if (scope.has(name))
-          throw InputError(where + ": '" + name + "' is not a function, in " + quoted);
-        throw InputError(where + ": unknown function '" + name + "' in " + quoted +
+          throw InputError(where + ": " + quote_clipped(name) + " is not a function, in " + quoted);
+        throw InputError(where + ": unknown function " + quote_clipped(name) + " in " + quoted +
                          did_you_mean(name, function_names()));
       }
       if (name == "pi") continue;
       if (is_function(name))
-        throw InputError(where + ": '" + name + "' is a function: write " + name + "(...), in " +
+        throw InputError(where + ": " + quote_clipped(name) + " is a function: write " + name + "(...), in " +
                          quoted);
       if (scope.is_constant(name)) {
         out.constants.insert(name);
@@ -138,7 +138,7 @@ Scan scan(const std::string& text, const SymbolScope& scope,
       if (u != unavailable.end()) throw InputError(where + ": " + u->second + ", in " + quoted);
       std::vector<std::string> known = scope.names();
       known.push_back("pi");
-      throw InputError(where + ": unknown symbol '" + name + "' in " + quoted + did_you_mean(name, known));
+      throw InputError(where + ": unknown symbol " + quote_clipped(name) + " in " + quoted + did_you_mean(name, known));
     }
     if (c == '=') {
       bool comparison = (i + 1 < n && text[i + 1] == '=') ||
@@ -208,12 +208,12 @@ const std::vector<std::string>& function_names() {
 std::string symbol_name_problem(const std::string& name) {
   if (name.empty()) return "an empty name";
   if (!is_ident_start(name[0]))
-    return "'" + name + "' does not start with a letter or '_'";
+    return quote_clipped(name) + " does not start with a letter or '_'";
   for (char c : name)
-    if (!is_ident_char(c)) return "'" + name + "' may contain only letters, digits and '_'";
+    if (!is_ident_char(c)) return quote_clipped(name) + " may contain only letters, digits and '_'";
   if (name == "t") return "'t' is the independent variable";
   if (name == "pi") return "'pi' is a built-in constant";
-  if (is_function(name)) return "'" + name + "' is a function name";
+  if (is_function(name)) return quote_clipped(name) + " is a function name";
   return "";
 }
 
@@ -264,9 +264,9 @@ Expression::Expression(const std::string& text, const SymbolScope& scope, const 
     p.SetExpr(text);
     p.Eval();  // compiles to bytecode now, so that syntax errors surface at load
     if (p.GetNumResults() != 1)
-      throw InputError(where + ": ',' outside a function call in '" + text + "'");
+      throw InputError(where + ": ',' outside a function call in " + quote_clipped(text));
   } catch (const mu::ParserError& e) {
-    throw InputError(where + ": cannot parse '" + text + "': " + describe_parse_error(e));
+    throw InputError(where + ": cannot parse " + quote_clipped(text) + ": " + describe_parse_error(e));
   }
 }
 

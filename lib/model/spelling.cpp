@@ -29,6 +29,10 @@ std::string closest_spelling(const std::string& word, const std::vector<std::str
   std::size_t best_d = limit + 1;
   for (const std::string& c : candidates) {
     if (c == word) continue;
+    // The distance is at least the difference in length: skip hopeless candidates before the
+    // quadratic table (a pasted megabyte-long name must not cost a terabyte).
+    const std::size_t gap = word.size() > c.size() ? word.size() - c.size() : c.size() - word.size();
+    if (gap > limit) continue;
     std::size_t d = edit_distance(word, c);
     if (d < best_d) {
       best_d = d;

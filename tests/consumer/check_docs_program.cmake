@@ -1,0 +1,21 @@
+# docs/cpp.md shows tests/consumer/main.cpp as its complete program: the ```cpp block that
+# follows "## A complete program" must be the file, line for line.
+#   cmake -DORDEX_SOURCE=... -P check_docs_program.cmake
+file(READ "${ORDEX_SOURCE}/docs/cpp.md" doc)
+file(READ "${ORDEX_SOURCE}/tests/consumer/main.cpp" program)
+string(FIND "${doc}" "## A complete program" at)
+if(at LESS 0)
+  message(FATAL_ERROR "docs/cpp.md has no section \"A complete program\"")
+endif()
+string(SUBSTRING "${doc}" ${at} -1 doc)
+string(FIND "${doc}" "```cpp\n" begin)
+if(begin LESS 0)
+  message(FATAL_ERROR "docs/cpp.md: no ```cpp block after \"A complete program\"")
+endif()
+math(EXPR begin "${begin} + 7")
+string(SUBSTRING "${doc}" ${begin} -1 doc)
+string(FIND "${doc}" "```" end)
+string(SUBSTRING "${doc}" 0 ${end} shown)
+if(NOT shown STREQUAL program)
+  message(FATAL_ERROR "docs/cpp.md's program differs from tests/consumer/main.cpp: copy the file into the document")
+endif()

@@ -28,18 +28,28 @@ Generator block_generator(const WeightedPair& pair) {
   return g;
 }
 
+GramianFactor GramianSweep::reachability_factor(std::size_t i, std::size_t j) const {
+  GramianFactor f;
+  f.L.resize(n(), 0);
+  f.row_error = Eigen::VectorXd::Zero(n());
+  for (std::size_t k = i; k < j; ++k) f = join_factors(transform_factor(step_phi[k], f), step_reach_factor[k]);
+  return f;
+}
+
+GramianFactor GramianSweep::controllability_factor(std::size_t i, std::size_t j) const {
+  GramianFactor f;
+  f.L.resize(n(), 0);
+  f.row_error = Eigen::VectorXd::Zero(n());
+  for (std::size_t k = j; k-- > i;) f = join_factors(step_ctrl_factor[k], transform_factor(step_phi_inv[k], f));
+  return f;
+}
+
 Eigen::MatrixXd GramianSweep::compose_reachability(std::size_t i, std::size_t j) const {
-  const int dim = n();
-  Eigen::MatrixXd w = Eigen::MatrixXd::Zero(dim, dim);
-  for (std::size_t k = i; k < j; ++k) w = step_phi[k] * w * step_phi[k].transpose() + step_reach[k];
-  return symmetrized(w);
+  return reachability_factor(i, j).product();
 }
 
 Eigen::MatrixXd GramianSweep::compose_controllability(std::size_t i, std::size_t j) const {
-  const int dim = n();
-  Eigen::MatrixXd w = Eigen::MatrixXd::Zero(dim, dim);
-  for (std::size_t k = j; k-- > i;) w = step_ctrl[k] + step_phi_inv[k] * w * step_phi_inv[k].transpose();
-  return symmetrized(w);
+  return controllability_factor(i, j).product();
 }
 
 Eigen::MatrixXd GramianSweep::compose_phi(std::size_t i, std::size_t j) const {
@@ -53,6 +63,7 @@ namespace {
 /// One interval's step matrices and Gramians.
 struct StepData {
   Eigen::MatrixXd phi, phi_inv, reach, ctrl;
+  GramianFactor reach_f, ctrl_f;
 };
 
 /// Largest entry of Phi(t, s) or Phi(s, t) accepted in one block transition. The -a' block grows
@@ -68,6 +79,8 @@ StepData compose_steps(const StepData& l, const StepData& r) {
   d.phi_inv = l.phi_inv * r.phi_inv;
   d.reach = symmetrized(r.phi * l.reach * r.phi.transpose() + r.reach);
   d.ctrl = symmetrized(l.ctrl + l.phi_inv * r.ctrl * l.phi_inv.transpose());
+  d.reach_f = join_factors(transform_factor(r.phi, l.reach_f), r.reach_f);
+  d.ctrl_f = join_factors(l.ctrl_f, transform_factor(l.phi_inv, r.ctrl_f));
   return d;
 }
 
@@ -88,6 +101,10 @@ StepData block_step(Propagator& prop, int n, double a, double b, int depth) {
     d.phi_inv = X.bottomRightCorner(n, n).transpose();
     d.reach = symmetrized(X.topRightCorner(n, n) * X.topLeftCorner(n, n).transpose());
     d.ctrl = symmetrized(X.bottomRightCorner(n, n).transpose() * X.topRightCorner(n, n));
+    // Square-root forms in graded form, so that a step Gramian whose entries are accurate
+    // relative to its diagonal keeps its weak directions (psd_factor).
+    d.reach_f = psd_factor(d.reach);
+    d.ctrl_f = psd_factor(d.ctrl);
     return d;
   }
   if (depth >= kMaxSplits)
@@ -109,6 +126,9 @@ GramianSweep sweep_gramians(const System& sys, GramianKind kind, const std::vect
                        format_number(times[k + 1]) + ")");
   // Builds the pair once here so that a model without B (or C) fails before any thread starts.
   const int n = pair_for_kind(sys, kind).n;
+  // Switching times of the model's non-smooth entries over the grid, found once for all threads.
+  Generator probe;
+  add_switching_times(probe, sys, times.front(), times.back());
   const std::size_t intervals = times.size() - 1;
   GramianSweep sw;
   sw.times = times;
@@ -116,8 +136,12 @@ GramianSweep sweep_gramians(const System& sys, GramianKind kind, const std::vect
   sw.step_phi_inv.resize(intervals);
   sw.step_reach.resize(intervals);
   sw.step_ctrl.resize(intervals);
+  sw.step_reach_factor.resize(intervals);
+  sw.step_ctrl_factor.resize(intervals);
 
   threads = static_cast<int>(std::max<std::size_t>(1, std::min<std::size_t>(threads, intervals)));
+  // Callbacks that may share captured state (a FunctionSystem by default) run on one thread.
+  if (!sys.clones_may_run_concurrently()) threads = 1;
   std::vector<std::size_t> cut(threads + 1);
   for (int c = 0; c <= threads; ++c) cut[c] = intervals * c / threads;
   std::vector<std::exception_ptr> errors(threads);
@@ -129,8 +153,14 @@ GramianSweep sweep_gramians(const System& sys, GramianKind kind, const std::vect
       std::unique_ptr<System> own = sys.clone();
       WeightedPair pair = pair_for_kind(*own, kind);
       PropagationOptions o = options;
-      if (c != 0) o.progress = nullptr;  // one thread reports for all
-      Propagator prop(block_generator(pair), o);
+      // Chunk 0 reports per interval below; the engine's own fraction would run from 0 to 1 in
+      // every interval.
+      o.progress = nullptr;
+      Generator gen = block_generator(pair);
+      gen.breakpoints.insert(gen.breakpoints.end(), probe.breakpoints.begin(), probe.breakpoints.end());
+      const System* model = own.get();
+      gen.diagnose = [model](double t, double dir) { return model->diagnose_entries(t, dir); };
+      Propagator prop(std::move(gen), o);
       Eigen::MatrixXd a(n, n);
       double rate = 0;
       for (std::size_t g = cut[c]; g < cut[c + 1]; ++g) {
@@ -155,6 +185,8 @@ GramianSweep sweep_gramians(const System& sys, GramianKind kind, const std::vect
         sw.step_phi_inv[g] = std::move(d.phi_inv);
         sw.step_reach[g] = std::move(d.reach);
         sw.step_ctrl[g] = std::move(d.ctrl);
+        sw.step_reach_factor[g] = std::move(d.reach_f);
+        sw.step_ctrl_factor[g] = std::move(d.ctrl_f);
         if (c == 0 && options.progress) options.progress(static_cast<double>(g + 1 - cut[0]) / (cut[1] - cut[0]));
       }
       stats[c] = prop.stats();
@@ -173,6 +205,7 @@ GramianSweep sweep_gramians(const System& sys, GramianKind kind, const std::vect
   for (auto& e : errors)
     if (e) std::rethrow_exception(e);
 
+  sw.notes = probe.notes;
   sw.stats = stats[0];
   for (int c = 1; c < threads; ++c) {
     sw.stats.steps += stats[c].steps;

@@ -13,6 +13,7 @@
 #include <vector>
 
 #include "gramian/gramian.hpp"
+#include "gramian/spectrum.hpp"
 #include "propagation/generator.hpp"
 
 namespace ordex {
@@ -27,11 +28,15 @@ struct GramianSweep {
   std::vector<Eigen::MatrixXd> step_phi_inv; ///< Phi(t_k, t_{k+1}) (from X22, not an inverse)
   std::vector<Eigen::MatrixXd> step_reach;   ///< W_r(t_k, t_{k+1}) = X12 X11', symmetric
   std::vector<Eigen::MatrixXd> step_ctrl;    ///< W_c(t_k, t_{k+1}) = X22' X12, symmetric
+  std::vector<GramianFactor> step_reach_factor;  ///< square-root form of step_reach (graded)
+  std::vector<GramianFactor> step_ctrl_factor;   ///< square-root form of step_ctrl (graded)
   // Per grid point k = 0 .. N:
   std::vector<Eigen::MatrixXd> phi_from_start;  ///< F_k = Phi(t_k, t_0)
   std::vector<Eigen::MatrixXd> phi_to_start;    ///< Psi_k = Phi(t_0, t_k)
   std::vector<Eigen::MatrixXd> cum_ctrl;        ///< C_k = W_c(t_0, t_k)
   PropagationStats stats;                       ///< summed over the threads
+  /// Model entries whose switching times could not be located (steps may straddle a jump there).
+  std::vector<std::string> notes;
   /// 0 when every running product is finite; else the last grid index k with finite F_k,
   /// Psi_k and C_k (W_c(t0, t) of a stiff stable model grows without bound).
   std::size_t running_valid_to = 0;
@@ -39,9 +44,14 @@ struct GramianSweep {
   int n() const { return step_phi.empty() ? 0 : static_cast<int>(step_phi[0].rows()); }
   std::size_t intervals() const { return step_phi.size(); }
 
-  /// W_r(t_i, t_j) by composing steps: W <- S_k W S_k' + W_k (exact up to the engine's error).
+  /// W_r(t_i, t_j) in square-root form: L <- [S_k L, F_k] compressed by QR at every step
+  /// (F_k the step's factor), so the result is positive semidefinite by construction.
+  GramianFactor reachability_factor(std::size_t i, std::size_t j) const;
+  /// W_c(t_i, t_j) in square-root form, composed backward: L <- [F_k, S_k^-1 L] compressed.
+  GramianFactor controllability_factor(std::size_t i, std::size_t j) const;
+  /// L L' of reachability_factor(i, j).
   Eigen::MatrixXd compose_reachability(std::size_t i, std::size_t j) const;
-  /// W_c(t_i, t_j) by composing steps backward: W <- W_c,k + S_k^-1 W S_k^-T.
+  /// L L' of controllability_factor(i, j).
   Eigen::MatrixXd compose_controllability(std::size_t i, std::size_t j) const;
   /// Phi(t_j, t_i) as the product of the step matrices.
   Eigen::MatrixXd compose_phi(std::size_t i, std::size_t j) const;

@@ -48,15 +48,16 @@ namespace {
 
 /// Step pairs composed over aligned dyadic blocks of the grid, so that any window is the
 /// composition of at most about 2 log2(N) blocks instead of all its steps. Level L, block k
-/// covers intervals [k 2^L, (k + 1) 2^L). Reachability keeps (Phi, W_r) of each block, the other
-/// kinds (Phi^-1, W_c).
+/// covers intervals [k 2^L, (k + 1) 2^L). Reachability keeps (Phi, factor of W_r) of each block,
+/// the other kinds (Phi^-1, factor of W_c): square-root form throughout (spectrum.hpp).
 class DyadicBlocks {
  public:
   DyadicBlocks(const GramianSweep& sw, bool reach) : reach_(reach) {
     const std::size_t N = sw.intervals();
     levels_.emplace_back();
     for (std::size_t k = 0; k < N; ++k)
-      levels_[0].push_back({reach ? sw.step_phi[k] : sw.step_phi_inv[k], reach ? sw.step_reach[k] : sw.step_ctrl[k]});
+      levels_[0].push_back(
+          {reach ? sw.step_phi[k] : sw.step_phi_inv[k], reach ? sw.step_reach_factor[k] : sw.step_ctrl_factor[k]});
     while (levels_.back().size() >= 2) {
       const auto& prev = levels_.back();
       std::vector<Block> next;
@@ -64,8 +65,8 @@ class DyadicBlocks {
       levels_.push_back(std::move(next));
     }
   }
-  /// The Gramian of the window of intervals [i, j).
-  Eigen::MatrixXd window(std::size_t i, std::size_t j) const {
+  /// The Gramian factor of the window of intervals [i, j).
+  GramianFactor window(std::size_t i, std::size_t j) const {
     bool first = true;
     Block acc;
     while (i < j) {
@@ -77,17 +78,18 @@ class DyadicBlocks {
       first = false;
       i += std::size_t{1} << level;
     }
-    return symmetrized(acc.w);
+    return acc.w;
   }
 
  private:
   struct Block {
-    Eigen::MatrixXd m, w;  // Phi and W_r (reach) or Phi^-1 and W_c
+    Eigen::MatrixXd m;  // Phi (reach) or Phi^-1
+    GramianFactor w;    // factor of W_r (reach) or W_c
   };
   /// [earlier] then [later] as one block.
   Block join(const Block& e, const Block& l) const {
-    if (reach_) return {l.m * e.m, l.m * e.w * l.m.transpose() + l.w};
-    return {e.m * l.m, e.w + e.m * l.w * e.m.transpose()};
+    if (reach_) return {l.m * e.m, join_factors(transform_factor(l.m, e.w), l.w)};
+    return {e.m * l.m, join_factors(e.w, transform_factor(e.m, l.w))};
   }
   bool reach_;
   std::vector<std::vector<Block>> levels_;
@@ -153,11 +155,9 @@ ProfileReport sliding_profile(const System& sys, GramianKind kind, double t0, do
     if (!g.allFinite()) {  // running products overflowed: compose this window
       out.recomposed = true;
       out.estimated_error = std::numeric_limits<double>::infinity();
-      g = blocks.window(i, j);
-      out.spectrum = summarize_spectrum(g, options.rank_tol);
+      out.spectrum = summarize_factor(blocks.window(i, j), options.rank_tol, options.scaling);
       return;
     }
-    out.spectrum = summarize_spectrum(g, options.rank_tol);
     // Graded-matrix perturbation bound (Demmel & Veselic, SIAM J. Matrix Anal. Appl. 13 (1992)
     // 1204-1245, from memory): with D = sqrt(diag W) and H = D^-1 W D^-1, a perturbation E moves
     // every eigenvalue of W by at most |D^-1 E D^-1| / lambda_min(H) relatively. The round-off
@@ -185,11 +185,16 @@ ProfileReport sliding_profile(const System& sys, GramianKind kind, double t0, do
       const double hmin = std::max(summarize_spectrum(h, options.rank_tol).lambda_min, options.rank_tol);
       rel = u * static_cast<double>(j - i + 2 * n) * vd.squaredNorm() / hmin + mult;
     }
-    out.estimated_error = rel;
+    // The difference in square-root form: its negative part (cancellation made it indefinite)
+    // and the estimate above both bound its graded error, which the rank verdict then honours.
+    GramianFactor diff = psd_factor(g);
+    diff.graded_error = std::max(diff.graded_error, std::isfinite(rel) ? rel : 1.0);
+    out.estimated_error = std::max(rel, diff.graded_error);
     if (!(out.estimated_error <= options.check_fraction)) {
       out.recomposed = true;
-      g = blocks.window(i, j);
-      out.spectrum = summarize_spectrum(g, options.rank_tol);
+      out.spectrum = summarize_factor(blocks.window(i, j), options.rank_tol, options.scaling);
+    } else {
+      out.spectrum = summarize_factor(diff, options.rank_tol, options.scaling);
     }
   };
   // Windows are independent: hand them out to the threads one at a time.

@@ -18,7 +18,10 @@
 // threshold are resolved by neither route, and states with a zero diagonal entry, exactly
 // missing, are left out). A window with rel > check_fraction is recomposed exactly from its
 // own step matrices and step Gramians instead, through step pairs pre-composed over aligned
-// dyadic blocks of the grid (at most about 2 log2(N) compositions per window).
+// dyadic blocks of the grid (at most about 2 log2(N) compositions per window), in square-root
+// form. A window read off by difference is analysed as a factor whose graded error bound is the
+// estimate, so its rank verdict says "undetermined" rather than guess when the difference
+// cannot decide; a difference that came out indefinite beyond check_fraction is recomposed.
 #include <vector>
 
 #include "gramian/gramian_sweep.hpp"
@@ -36,6 +39,8 @@ struct ProfileOptions {
   /// Largest accepted estimated relative error of a window read off by difference, measured
   /// against its smallest counted eigenvalue; above it the window is recomposed. Default 1e-3.
   double check_fraction = 1e-3;
+  /// State scaling of each window's rank verdict (spectrum.hpp); default balanced.
+  StateScaling scaling;
   /// Threads for the sweep and for the windows; default 2, in [1, 64].
   int threads = 2;
   /// Largest number of windows; default 10^6.

@@ -2,10 +2,12 @@
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
+#include <Eigen/SVD>
 #include <memory>
 
 #include "io/errors.hpp"
-#include "propagation/ode_integrator.hpp"
+#include "propagation/state_simulator.hpp"
 
 namespace ordex {
 
@@ -17,6 +19,8 @@ void TransferOptions::validate(int n) const {
   if (!x0.allFinite()) throw InputError("--x0: entries must be finite");
   if (!xf.allFinite()) throw InputError("--xf: entries must be finite");
   if (!(rank_tol > 0 && rank_tol < 1)) throw InputError("--rank-tol: " + format_number(rank_tol) + " is not in (0, 1)");
+  if (!(warn_condition > 1)) throw InputError("TransferOptions::warn_condition: " + format_number(warn_condition) + " must be > 1");
+  scaling.validate(n);
   if (!(replay_rtol >= 1e-14 && replay_rtol <= 1e-3))
     throw InputError("transfer replay tolerance: " + format_number(replay_rtol) + " is not in [1e-14, 1e-3]");
 }
@@ -46,24 +50,37 @@ TransferReport design_transfer(const System& sys, const GramianSweep& sweep, con
 
   TransferReport r;
   r.times = sweep.times;
-  const Eigen::MatrixXd wr = sweep.compose_reachability(0, N);
-  r.reachability = analyze_gramian(wr, options.rank_tol);
+  const GramianFactor factor = sweep.reachability_factor(0, N);
+  r.reachability = analyze_factor(factor, options.rank_tol, options.scaling);
   const GramianSpectrum& sp = r.reachability;
-  if (!sp.full_rank) {
+  if (sp.verdict.status != RankStatus::FullRank) {
+    const bool unsure = sp.verdict.status == RankStatus::Undetermined;
     throw NumericalError(
-        "the reachability Gramian over [" + format_number(t0) + ", " + format_number(t1) +
-        "] is too ill-conditioned to invert (rank " + std::to_string(sp.rank) + " of " + std::to_string(n) +
-        " at rank tolerance " + format_number(sp.rank_tol) + "): weakest direction (" +
+        "the reachability Gramian over [" + format_number(t0) + ", " + format_number(t1) + "] " +
+        (unsure ? "may be rank deficient (rank between " + std::to_string(sp.verdict.rank_low) + " and " +
+                      std::to_string(sp.verdict.rank_high)
+                : "is too ill-conditioned to invert (rank " + std::to_string(sp.rank)) +
+        " of " + std::to_string(n) + " at rank tolerance " + format_number(sp.rank_tol) + ", " +
+        sp.verdict.scaling + " scaling): weakest direction (" +
         describe_direction(sp.weakest_direction, sys.info().state_names) + ") has eigenvalue " +
-        format_number(sp.eigenvalues[0]) + " against the largest " + format_number(sp.eigenvalues[n - 1]));
+        format_number(sp.eigenvalues[0]) + " against the largest " + format_number(sp.eigenvalues[n - 1]) +
+        (unsure ? "; " + sp.verdict.reason + " (" + sp.verdict.remedy + ")" : ""));
   }
+  const Eigen::VectorXd& mu = sp.verdict.scaled_eigenvalues;
+  const double scaled_condition = mu[0] > 0 ? mu[n - 1] / mu[0] : std::numeric_limits<double>::infinity();
+  if (scaled_condition > options.warn_condition)
+    r.warnings.push_back("the reachability Gramian is ill-conditioned (condition " + format_number(scaled_condition) +
+                         " with " + sp.verdict.scaling + " scaling): the energy and the input carry its errors "
+                         "magnified by up to that factor");
   r.free_final = sweep.phi_from_start.back() * options.x0;
   const Eigen::VectorXd d = options.xf - r.free_final;
-  // W_r^-1 d through the eigen-decomposition already computed: V diag(1/lambda) V' d.
-  Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(symmetrized(wr));
-  const Eigen::MatrixXd& V = es.eigenvectors();
-  r.costate = V * (V.transpose() * d).cwiseQuotient(es.eigenvalues());
-  r.energy = d.dot(r.costate);
+  // With the factor's SVD L = U S V': v = L^+ d = V S^-1 U' d (least squares on L), energy = |v|^2,
+  // lambda = (L')^+ v = U S^-1 V' v. The small singular values are the factor's own, accurate
+  // to about u sigma_max, where an explicit W_r^-1 would lose them at u lambda_max.
+  Eigen::JacobiSVD<Eigen::MatrixXd> svd(factor.L, Eigen::ComputeThinU | Eigen::ComputeThinV);
+  const Eigen::VectorXd v = svd.solve(d);
+  r.costate = svd.matrixU() * (svd.matrixV().transpose() * v).cwiseQuotient(svd.singularValues());
+  r.energy = v.squaredNorm();
 
   // Phi(t1, t_k)' lambda backward along the grid: p_k = S_k' p_{k+1}, p_N = lambda.
   std::vector<Eigen::VectorXd> p(N + 1);
@@ -89,67 +106,46 @@ TransferReport design_transfer(const System& sys, const GramianSweep& sweep, con
   oo.rtol = options.replay_rtol;
   oo.atol = options.replay_rtol * 1e-2;
   {
+    // The engine's state simulator on the plant and costate together, z = [x/sx; p/sp0]:
+    // z' = [[A, (sp0/sx) B B'], [0, -A']] z, with the energy as its running cost.
     auto w = std::make_shared<ReplayWork>(sys);
-    OdeProblem prob;
-    prob.size = 2 * n + 1;
-    prob.breakpoints = sys.info().breakpoints;
-    prob.label = "transfer replay";
-    prob.rhs = [w, n, sx, sp0, se](double t, const double* y, double* ydot) {
+    StateSimulation sim;
+    sim.plant.states = 2 * n;
+    sim.plant.A = [w, n, sx, sp0](double t, MatrixRef z) {
       w->sys->A(t, w->a);
       w->sys->B(t, w->b);
-      Eigen::Map<const Eigen::VectorXd> x(y, n), pp(y + n, n);
-      Eigen::Map<Eigen::VectorXd> dx(ydot, n), dp(ydot + n, n);
-      w->u.noalias() = w->b.transpose() * pp;  // scaled by sp0
-      dx.noalias() = w->a * x;
-      dx.noalias() += (sp0 / sx) * (w->b * w->u);
-      dp.noalias() = -w->a.transpose() * pp;
-      ydot[2 * n] = sp0 * sp0 * w->u.squaredNorm() / se;
+      z.setZero();
+      z.topLeftCorner(n, n) = w->a;
+      z.topRightCorner(n, n).noalias() = (sp0 / sx) * (w->b * w->b.transpose());
+      z.bottomRightCorner(n, n) = -w->a.transpose();
     };
-    OdeIntegrator ode(prob, oo);
-    std::vector<double> y(static_cast<std::size_t>(2 * n + 1), 0.0);
-    for (int i = 0; i < n; ++i) {
-      y[i] = options.x0[i] / sx;
-      y[n + i] = p[0][i] / sp0;
-    }
-    ode.reset(t0, y.data());
-    ode.advance(t1, y.data());
-    r.replay_steps += ode.stats().steps;
-    r.x_final = Eigen::Map<Eigen::VectorXd>(y.data(), n) * sx;
-    r.energy_replayed = y[2 * n] * se;
+    sim.plant.breakpoints = sys.info().breakpoints;
+    sim.plant.label = "transfer replay";
+    sim.running_cost = [w, n, sp0, se](double t, const Eigen::VectorXd& z, const Eigen::VectorXd&) {
+      w->sys->B(t, w->b);
+      w->u.noalias() = w->b.transpose() * z.tail(n);  // scaled by sp0
+      return sp0 * sp0 * w->u.squaredNorm() / se;
+    };
+    Eigen::VectorXd z0(2 * n);
+    z0 << options.x0 / sx, p[0] / sp0;
+    const SimulationResult run = simulate_states(sim, t0, z0, {t1}, oo);
+    r.replay_steps += run.stats.steps;
+    r.x_final = run.states.row(0).head(n).transpose() * sx;
+    r.energy_replayed = run.cost(0) * se;
     r.final_error = (r.x_final - options.xf).norm();
   }
-  // Replay 2: the sampled history, linearly interpolated between the sample times.
+  // Replay 2: the sampled history, linearly interpolated between the sample times (the
+  // simulator restarts at each sample, where the interpolant kinks).
   {
-    auto w = std::make_shared<ReplayWork>(sys);
-    const std::vector<double>& ts = sweep.times;
-    const Eigen::MatrixXd& us = r.inputs;
-    OdeProblem prob;
-    prob.size = n;
-    prob.breakpoints = sys.info().breakpoints;
-    // The interpolant has kinks at the samples; stopping there keeps the replay accurate.
-    if (ts.size() <= 20001) prob.breakpoints.insert(prob.breakpoints.end(), ts.begin() + 1, ts.end() - 1);
-    std::sort(prob.breakpoints.begin(), prob.breakpoints.end());
-    prob.label = "sampled-input replay";
-    prob.rhs = [w, n, sx, &ts, &us](double t, const double* y, double* ydot) {
-      std::size_t k = static_cast<std::size_t>(std::upper_bound(ts.begin(), ts.end(), t) - ts.begin());
-      k = std::min(std::max<std::size_t>(k, 1), ts.size() - 1) - 1;
-      const double s = std::clamp((t - ts[k]) / (ts[k + 1] - ts[k]), 0.0, 1.0);
-      w->u = (1 - s) * us.row(static_cast<Eigen::Index>(k)).transpose() +
-             s * us.row(static_cast<Eigen::Index>(k + 1)).transpose();
-      w->sys->A(t, w->a);
-      w->sys->B(t, w->b);
-      Eigen::Map<const Eigen::VectorXd> x(y, n);
-      Eigen::Map<Eigen::VectorXd> dx(ydot, n);
-      dx.noalias() = w->a * x;
-      dx.noalias() += (1.0 / sx) * (w->b * w->u);
-    };
-    OdeIntegrator ode(prob, oo);
-    std::vector<double> y(static_cast<std::size_t>(n));
-    for (int i = 0; i < n; ++i) y[i] = options.x0[i] / sx;
-    ode.reset(t0, y.data());
-    ode.advance(t1, y.data());
-    r.replay_steps += ode.stats().steps;
-    r.final_error_sampled = (Eigen::Map<Eigen::VectorXd>(y.data(), n) * sx - options.xf).norm();
+    StateSimulation sim;
+    sim.plant = linear_plant(sys);
+    sim.plant.label = "sampled-input replay";
+    sim.input.samples.times = sweep.times;
+    sim.input.samples.values = r.inputs / sx;
+    sim.input.samples.interpolation = SampleInterpolation::Linear;
+    const SimulationResult run = simulate_states(sim, t0, options.x0 / sx, {t1}, oo);
+    r.replay_steps += run.stats.steps;
+    r.final_error_sampled = (run.states.row(0).transpose() * sx - options.xf).norm();
   }
   return r;
 }

@@ -26,6 +26,11 @@ struct TransferOptions {
   /// Relative rank tolerance of W_r (spectrum.hpp); default 1e-10. A W_r of lower rank cannot
   /// be inverted and the design fails as a numerical error naming the weakest direction.
   double rank_tol = kDefaultRankTol;
+  /// State scaling of the rank verdict on W_r (spectrum.hpp); default balanced.
+  StateScaling scaling;
+  /// A W_r whose scaled condition number exceeds this is inverted with a warning (the energy
+  /// and the input inherit errors of W_r magnified by about that much); default 1e8.
+  double warn_condition = 1e8;
   /// Relative tolerance of the CVODE replays; default 1e-10 (absolute 1e-12 on scaled unknowns).
   double replay_rtol = 1e-10;
   /// Throws InputError naming --x0 / --xf / the option when sizes or values are wrong.
@@ -43,13 +48,17 @@ struct TransferReport {
   double final_error_sampled = 0;   ///< |x(t1) - xf| with the sampled input linearly interpolated
   Eigen::VectorXd costate;          ///< lambda = W_r^-1 d
   Eigen::VectorXd free_final;       ///< Phi(t1, t0) x0 (where x0 drifts without input)
-  GramianSpectrum reachability;     ///< the spectrum of W_r(t0, t1)
+  GramianSpectrum reachability;     ///< the spectrum and rank verdict of W_r(t0, t1)
+  /// What the report must say about the inversion (an ill-conditioned W_r), one line each.
+  std::vector<std::string> warnings;
   long replay_steps = 0;            ///< CVODE steps of both replays
 };
 
 /// Designs and replays the transfer on SWEEP (the controllability pair of SYS swept over the
-/// sample grid, at least two times). Throws InputError (sizes) or NumericalError (W_r not of
-/// full rank at the tolerance, integration failure).
+/// sample grid, at least two times). W_r is used in square-root form, W_r = L L': v = L^+ d (least
+/// squares on L), lambda = (L')^+ v, energy = |v|^2; no W_r^-1 is formed. Throws InputError
+/// (sizes) or NumericalError (W_r rank deficient or its rank undetermined at the tolerance,
+/// integration failure).
 TransferReport design_transfer(const System& sys, const GramianSweep& sweep, const TransferOptions& options);
 
 }  // namespace ordex

@@ -1,12 +1,16 @@
 #include "model/expression_system.hpp"
 
+#include <algorithm>
 #include <cmath>
+#include <functional>
 #include <limits>
 #include <map>
 #include <set>
 #include <stdexcept>
 
 #include "io/errors.hpp"
+#include "model/entry_diagnosis.hpp"
+#include "model/expression_switching.hpp"
 
 namespace ordex {
 
@@ -39,6 +43,14 @@ struct ExpressionSystem::Compiled {
   std::map<std::string, double> constant_defines;
   std::map<std::string, double*> column_slots;
   CompiledMatrix A, B, C, D;
+  // Switching functions of the time-dependent entries (expression_switching.hpp).
+  struct Switch {
+    Expression expr;
+    SwitchKind kind;
+    std::string key, construct;
+  };
+  std::vector<Switch> switches;
+  std::vector<std::string> switch_notes;  // entries whose switching functions could not be built
   mutable double last_t = std::numeric_limits<double>::quiet_NaN();
 };
 
@@ -134,6 +146,22 @@ ExpressionSystem::ExpressionSystem(ModelSpec spec) : spec_(std::move(spec)), c_(
   compile(spec_.B, c.B);
   compile(spec_.C, c.C);
   compile(spec_.D, c.D);
+
+  // Non-smooth constructs of everything that varies with t: [define] entries and matrix entries.
+  auto watch = [&](const std::string& text, const std::string& key) {
+    try {
+      for (const SwitchingFunction& f : switching_functions(text, where(spec_, key))) {
+        Expression e(f.text, c.scope, where(spec_, key));
+        if (e.is_constant()) continue;  // switches on parameters only: never within a window
+        c.switches.push_back({std::move(e), f.kind, key, f.construct});
+      }
+    } catch (const InputError& e) {
+      c.switch_notes.push_back(std::string(e.what()) + ": its switching times are not searched");
+    }
+  };
+  for (const auto& d : c.defines) watch(d.expr.text(), d.key);
+  for (const CompiledMatrix* m : {&c.A, &c.B, &c.C, &c.D})
+    for (const auto& e : m->varying) watch(e.expr.text(), e.key);
 }
 
 ExpressionSystem::~ExpressionSystem() = default;
@@ -159,8 +187,8 @@ void ExpressionSystem::fill(const CompiledMatrix& m, double t, MatrixRef out) co
   for (const auto& e : m.varying) {
     double v = e.expr.eval();
     if (!std::isfinite(v))
-      throw NumericalError(spec_.path + ": " + e.key + " is " + format_number(v) + " at t = " +
-                           format_number(t));
+      throw NumericalError(spec_.path + ": " + e.key + " = " + e.expr.text() + " is not finite (" +
+                           format_number(v) + ") at t = " + format_number(t));
     out(e.row, e.col) = v;
   }
 }
@@ -217,6 +245,157 @@ void ExpressionSystem::check_finite_at(double t) const {
                            std::to_string(i + 1) + "][" + std::to_string(j + 1) + "]: evaluates to " +
                            format_number(m->base(i, j)));
   }
+}
+
+std::string ExpressionSystem::diagnose_entries(double t, double direction) const {
+  const Compiled& c = *c_;
+  std::vector<std::string> names;
+  const std::pair<const MatrixSpec*, const CompiledMatrix*> mats[] = {
+      {&spec_.A, &c.A}, {&spec_.B, &c.B}, {&spec_.C, &c.C}, {&spec_.D, &c.D}};
+  for (const auto& [ms, cm] : mats) {
+    if (!ms->present) continue;
+    for (const EntrySpec& es : ms->entries) names.push_back(es.is_number ? es.key : es.key + " = " + es.text);
+  }
+  const EntryEvaluator eval = [&](double tt, std::vector<double>& out) {
+    try {
+      refresh(tt);
+      std::size_t k = 0;
+      for (const auto& [ms, cm] : mats) {
+        if (!ms->present) continue;
+        const std::size_t first = k;
+        for (Eigen::Index i = 0; i < cm->base.rows(); ++i)
+          for (Eigen::Index j = 0; j < cm->base.cols(); ++j) out[k++] = cm->base(i, j);
+        for (const auto& e : cm->varying) out[first + static_cast<std::size_t>(e.row * cm->base.cols() + e.col)] = e.expr.eval();
+      }
+      return true;
+    } catch (const std::exception&) {
+      return false;
+    }
+  };
+  const std::string d = diagnose_entry_values(names, eval, t, direction);
+  return d.empty() ? d : spec_.path + ": " + d;
+}
+
+int ExpressionSystem::switching_functions_count() const { return static_cast<int>(c_->switches.size()); }
+
+namespace {
+
+/// How far VALUE is from changing level, for deciding whether a cell whose ends share a level
+/// may still hide two changes.
+double distance_to_switch(SwitchKind kind, double v) {
+  if (kind == SwitchKind::Floor) return std::min(v - std::floor(v), std::ceil(v) - v);
+  return std::abs(v);
+}
+
+constexpr std::size_t kMaxSwitchingTimes = 100000;
+
+}  // namespace
+
+std::vector<double> ExpressionSystem::switching_times(double a, double b, std::vector<std::string>* notes) const {
+  const Compiled& c = *c_;
+  if (notes)
+    for (const auto& n : c.switch_notes) notes->push_back(n);
+  std::vector<double> found;
+  if (c.switches.empty() || !(b > a) || !std::isfinite(a) || !std::isfinite(b)) return found;
+  // The grid: at least 4096 cells over the window, and 64 per period of a periodic model.
+  double cells = 4096;
+  if (info_.period && *info_.period > 0) cells = std::max(cells, 64 * (b - a) / *info_.period);
+  cells = std::min(cells, double(1 << 20));
+  for (const auto& sw : c.switches) {
+    std::string failure;
+    double fail_t = 0;
+    auto value = [&](double t, double& v) {
+      try {
+        refresh(t);
+        v = sw.expr.eval();
+      } catch (const std::exception&) {
+        v = std::numeric_limits<double>::quiet_NaN();
+      }
+      if (!std::isfinite(v) && failure.empty()) {
+        failure = "cannot be evaluated";
+        fail_t = t;
+      }
+      return std::isfinite(v);
+    };
+    auto level = [&](double v) { return switch_level(sw.kind, v); };
+    std::vector<double> roots;
+    // Every change of level inside [lo, hi] whose ends have the values vlo, vhi: bisection to
+    // adjacent doubles for the first change, repeated while the level still differs.
+    std::function<void(double, double, double, double, int)> cell = [&](double lo, double hi, double vlo, double vhi,
+                                                                       int depth) {
+      if (roots.size() > kMaxSwitchingTimes || !failure.empty()) return;
+      if (level(vlo) == level(vhi)) {
+        // Same level at both ends: look inside when the function passes near its switching
+        // level (a double change, or a touch) within what it varies over the cell.
+        const double near = std::min(distance_to_switch(sw.kind, vlo), distance_to_switch(sw.kind, vhi));
+        if (depth >= 4 || !(near < 2 * std::abs(vhi - vlo) || near == 0)) return;
+        double prev = lo, vprev = vlo;
+        for (int k = 1; k <= 8; ++k) {
+          const double t = k == 8 ? hi : lo + (hi - lo) * k / 8;
+          double v = vhi;
+          if (k < 8 && !value(t, v)) return;
+          cell(prev, t, vprev, v, depth + 1);
+          prev = t;
+          vprev = v;
+        }
+        return;
+      }
+      double l = lo, h = hi, vl = vlo;
+      while (true) {
+        const double m = 0.5 * (l + h);
+        if (!(m > l && m < h)) break;
+        double vm;
+        if (!value(m, vm)) return;
+        if (level(vm) == level(vl)) {
+          l = m;
+          vl = vm;
+        } else {
+          h = m;
+        }
+      }
+      roots.push_back(h);
+      if (h < hi) {
+        double vh;
+        if (!value(h, vh)) return;
+        if (level(vh) != level(vhi)) cell(h, hi, vh, vhi, depth);
+      }
+    };
+    for (double n = cells;; n *= 8) {
+      roots.clear();
+      failure.clear();
+      const long N = static_cast<long>(n);
+      double tprev = a, vprev;
+      if (!value(a, vprev)) break;
+      for (long k = 1; k <= N && failure.empty() && roots.size() <= kMaxSwitchingTimes; ++k) {
+        const double t = k == N ? b : a + (b - a) * static_cast<double>(k) / static_cast<double>(N);
+        double v;
+        if (!value(t, v)) break;
+        // Keep every sample's neighbourhood in view: a cell is examined with its own ends.
+        cell(tprev, t, vprev, v, 0);
+        tprev = t;
+        vprev = v;
+      }
+      // Dense changes (more than one per 8 cells) suggest the grid may step over some: refine.
+      if (!failure.empty() || roots.size() * 8 <= static_cast<std::size_t>(N) || n * 8 > double(1 << 20)) break;
+    }
+    if (!failure.empty()) {
+      if (notes)
+        notes->push_back(spec_.path + ": " + sw.key + ": the switching function of '" + sw.construct + "' " + failure +
+                         " at t = " + format_number(fail_t) + ": its switching times in the window are not located");
+      continue;
+    }
+    if (roots.size() > kMaxSwitchingTimes) {
+      if (notes)
+        notes->push_back(spec_.path + ": " + sw.key + ": '" + sw.construct + "' switches more than " +
+                         std::to_string(kMaxSwitchingTimes) + " times in the window: not all switching times are located");
+      roots.resize(kMaxSwitchingTimes);
+    }
+    for (double r : roots)
+      if (r > a && r < b) found.push_back(r);
+  }
+  std::sort(found.begin(), found.end());
+  found.erase(std::unique(found.begin(), found.end()), found.end());
+  return found;
 }
 
 }  // namespace ordex

@@ -80,7 +80,20 @@ class ExpressionSystem : public System {
   int time_varying_entries() const;
   /// Evaluates every matrix and time-dependent definition at T and throws InputError naming
   /// the first key whose value is not finite (the load-time check).
-  void check_finite_at(double t) const;
+  void check_finite_at(double t) const override;
+
+  /// Names the first entry (key and text) that is not finite, huge or blowing up at or just
+  /// beyond T (entry_diagnosis.hpp).
+  std::string diagnose_entries(double t, double direction) const override;
+  /// The switching times in (A, B) of every non-smooth construct in the time-dependent [define]
+  /// entries and matrix entries (expression_switching.hpp): each switching function is sampled
+  /// on a grid fine for the window and the model's period (at least 4096 cells, refined where
+  /// the function comes near its switching level between samples, made finer while the found
+  /// times are dense), and each change of level is located by bisection to adjacent doubles.
+  /// An entry whose switching function cannot be evaluated gets a line in NOTES instead.
+  std::vector<double> switching_times(double a, double b, std::vector<std::string>* notes) const override;
+  /// Number of switching functions found in the model's time-dependent entries.
+  int switching_functions_count() const;
 
  private:
   struct Compiled;

@@ -35,6 +35,9 @@ struct SystemInfo {
   /// Every file the model was read from: the model file, then its tables' CSV files. The apps
   /// refuse outputs that name one of them (check_outputs in io/output_file.hpp).
   std::vector<std::string> files_read;
+  /// The model's parameters with the values in effect (after --set overrides), in file order;
+  /// empty for a model built in C++. Report headers list them (model/model_report.hpp).
+  std::vector<std::pair<std::string, double>> parameters;
 };
 
 class System {
@@ -58,10 +61,29 @@ class System {
   /// An independent copy for use on another thread.
   virtual std::unique_ptr<System> clone() const = 0;
 
+  /// Threads: a System is never used by two threads at once; a module that works in parallel
+  /// gives each thread its own clone(), and only when this returns true (the clones share no
+  /// mutable state). Default true: expression and table models copy everything they hold.
+  /// FunctionSystem says false unless its user allows it (its callbacks may share what they
+  /// capture), and threaded modules then run on one thread.
+  virtual bool clones_may_run_concurrently() const { return true; }
+
   /// True only when A, B, C and D are known not to depend on t at all (a model whose every
   /// entry is a constant). Modules may then reuse one step for intervals of equal length.
   /// False means "may vary", never "varies".
   virtual bool time_invariant() const { return false; }
+
+  /// Why the model breaks down at or just beyond T (DIRECTION +1 forward, -1 backward): names the
+  /// first entry that is not finite, too large to compute with, or blowing up there, e.g.
+  /// "A[2][1] is not finite at t = 0.1"; empty when every entry looks sound. For failure
+  /// messages only (allocates). The default probes A, B, C through the virtual evaluators
+  /// (model/entry_diagnosis.cpp); models that know their entries' text override it.
+  virtual std::string diagnose_entries(double t, double direction) const;
+
+  /// Times in (A, B) where an entry may jump or kink without a declared breakpoint (switching
+  /// times of comparisons, ?:, floor, abs, min, max), found by the model; NOTES receives one line
+  /// per entry whose switching times could not be located. Default: none.
+  virtual std::vector<double> switching_times(double a, double b, std::vector<std::string>* notes) const;
 
   // Convenience forms that allocate (not for inner loops).
   Eigen::MatrixXd A(double t) const;

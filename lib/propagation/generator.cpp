@@ -1,5 +1,8 @@
 #include "propagation/generator.hpp"
 
+#include <algorithm>
+#include <exception>
+
 namespace ordex {
 
 Generator state_generator(const System& sys) {
@@ -10,7 +13,33 @@ Generator state_generator(const System& sys) {
   g.breakpoints = sys.info().breakpoints;
   g.period = sys.info().period;
   g.label = "A(t)";
+  g.diagnose = [s](double t, double direction) { return s->diagnose_entries(t, direction); };
   return g;
+}
+
+Generator state_generator(const System& sys, double t0, double t1) {
+  Generator g = state_generator(sys);
+  add_switching_times(g, sys, t0, t1);
+  return g;
+}
+
+void add_switching_times(Generator& g, const System& sys, double t0, double t1) {
+  const std::vector<double> found = sys.switching_times(std::min(t0, t1), std::max(t0, t1), &g.notes);
+  if (found.empty()) return;
+  g.breakpoints.insert(g.breakpoints.end(), found.begin(), found.end());
+  std::sort(g.breakpoints.begin(), g.breakpoints.end());
+  g.breakpoints.erase(std::unique(g.breakpoints.begin(), g.breakpoints.end()), g.breakpoints.end());
+}
+
+std::string with_diagnosis(const Generator& g, double t, double direction, const std::string& message) {
+  if (!g.diagnose) return message;
+  std::string d;
+  try {
+    d = g.diagnose(t, direction);
+  } catch (const std::exception&) {
+    return message;
+  }
+  return d.empty() ? message : d + " (" + message + ")";
 }
 
 }  // namespace ordex

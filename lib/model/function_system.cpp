@@ -57,6 +57,11 @@ void FunctionSystem::D(double t, MatrixRef out) const {
   else out.setZero();
 }
 
+FunctionSystem& FunctionSystem::set_concurrent_callbacks(bool allowed) {
+  concurrent_ = allowed;
+  return *this;
+}
+
 FunctionSystem& FunctionSystem::set_time_invariant(bool invariant) {
   time_invariant_ = invariant;
   return *this;

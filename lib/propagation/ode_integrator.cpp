@@ -19,11 +19,45 @@ namespace ordex {
 
 void OdeOptions::validate() const {
   if (!(rtol >= 1e-14 && rtol <= 1e-1))
-    throw InputError("rtol: " + format_number(rtol) + " is outside [1e-14, 0.1]");
-  if (!(atol > 0 && std::isfinite(atol))) throw InputError("atol: must be a positive number");
-  if (max_steps < 1) throw InputError("max steps: must be at least 1");
-  if (!(max_step >= 0)) throw InputError("max step: must be >= 0");
+    throw InputError("OdeOptions::rtol = " + format_number(rtol) + " is outside [1e-14, 0.1]");
+  if (!(atol > 0 && std::isfinite(atol)))
+    throw InputError("OdeOptions::atol = " + format_number(atol) + " must be a positive number");
+  if (max_steps < 1) throw InputError("OdeOptions::max_steps = " + std::to_string(max_steps) + " must be at least 1");
+  if (!(max_step >= 0 && std::isfinite(max_step)))
+    throw InputError("OdeOptions::max_step = " + format_number(max_step) + " must be >= 0");
+  if (!(initial_step >= 0 && std::isfinite(initial_step)))
+    throw InputError("OdeOptions::initial_step = " + format_number(initial_step) + " must be >= 0");
 }
+
+OdeOptions ode_options(const PropagationOptions& o, OdeScheme fallback) {
+  OdeOptions r;
+  r.scheme = o.method == Method::Adams ? OdeScheme::Adams : o.method == Method::Bdf ? OdeScheme::Bdf : fallback;
+  r.rtol = o.rtol;
+  r.atol = o.atol;
+  r.max_steps = o.max_steps;
+  r.max_step = o.max_step;
+  r.initial_step = o.initial_step;
+  return r;
+}
+
+Method method_of(OdeScheme scheme) { return scheme == OdeScheme::Adams ? Method::Adams : Method::Bdf; }
+
+OdeStats& OdeStats::operator+=(const OdeStats& o) {
+  steps += o.steps;
+  rhs_evaluations += o.rhs_evaluations;
+  error_test_failures += o.error_test_failures;
+  linear_iterations += o.linear_iterations;
+  return *this;
+}
+
+namespace {
+
+// CVODE's return for a callback failure it must not retry: it stops the integration at once
+// (a positive value would make it cut the step and call again, a million times over on a
+// solution that has left the range of doubles).
+constexpr int kUnrecoverable = -1;
+
+}  // namespace
 
 struct OdeIntegrator::Impl {
   OdeProblem problem;
@@ -38,6 +72,10 @@ struct OdeIntegrator::Impl {
   std::exception_ptr pending;  // exception thrown by a callback, rethrown after CVODE returns
   std::string cvode_message;
   OdeStats base;               // counts of earlier CVODE runs (before re-inits)
+  // The current leg [leg_from, leg_to]: callbacks asked at an end that is a breakpoint get a
+  // time just inside (see OdeProblem::breakpoints).
+  double leg_from = 0, leg_to = 0, nudge = 0;
+  bool from_breakpoint = false, to_breakpoint = false;
 
   ~Impl() {
     if (mem) CVodeFree(&mem);
@@ -48,43 +86,69 @@ struct OdeIntegrator::Impl {
     if (ctx) SUNContext_Free(&ctx);
   }
 
+  bool is_breakpoint(double s) const {
+    return std::binary_search(problem.breakpoints.begin(), problem.breakpoints.end(), s);
+  }
+
+  void set_leg(double from, double to) {
+    leg_from = from;
+    leg_to = to;
+    nudge = 1e-10 * std::abs(to - from);
+    from_breakpoint = is_breakpoint(from);
+    to_breakpoint = is_breakpoint(to);
+  }
+
+  double inside(double s) const {
+    const double dir = leg_to >= leg_from ? 1.0 : -1.0;
+    if (from_breakpoint && std::abs(s - leg_from) <= nudge) return leg_from + dir * nudge;
+    if (to_breakpoint && std::abs(s - leg_to) <= nudge) return leg_to - dir * nudge;
+    return s;
+  }
+
+  std::string name_of(int i) const {
+    return problem.name_of ? problem.name_of(i) : "y[" + std::to_string(i) + "]";
+  }
+
   static int rhs(realtype t, N_Vector y, N_Vector ydot, void* data) {
     auto* self = static_cast<Impl*>(data);
     try {
-      self->problem.rhs(t, N_VGetArrayPointer(y), N_VGetArrayPointer(ydot));
+      self->problem.rhs(self->inside(t), N_VGetArrayPointer(y), N_VGetArrayPointer(ydot));
       const double* d = N_VGetArrayPointer(ydot);
       for (int i = 0; i < self->problem.size; ++i)
-        if (!std::isfinite(d[i]))
-          throw NumericalError(self->problem.label + ": the right-hand side is not finite at t = " +
-                               format_number(t));
+        if (!std::isfinite(d[i])) {
+          const double v = N_VGetArrayPointer(y)[i];
+          throw NumericalError(self->problem.label + ": the derivative of " + self->name_of(i) +
+                               " is not finite at t = " + format_number(t) + " (" + self->name_of(i) +
+                               " = " + format_number(v) + ")");
+        }
       return 0;
     } catch (...) {
       self->pending = std::current_exception();
-      return -1;
+      return kUnrecoverable;
     }
   }
   static int jtimes(N_Vector v, N_Vector Jv, realtype t, N_Vector y, N_Vector, void* data, N_Vector) {
     auto* self = static_cast<Impl*>(data);
     try {
-      self->problem.jac_times(t, N_VGetArrayPointer(y), N_VGetArrayPointer(v), N_VGetArrayPointer(Jv));
+      self->problem.jac_times(self->inside(t), N_VGetArrayPointer(y), N_VGetArrayPointer(v), N_VGetArrayPointer(Jv));
       return 0;
     } catch (...) {
       self->pending = std::current_exception();
-      return -1;
+      return kUnrecoverable;
     }
   }
   static int psetup(realtype t, N_Vector y, N_Vector, booleantype, booleantype* jcur, realtype gamma,
                     void* data) {
     auto* self = static_cast<Impl*>(data);
     try {
-      self->problem.precond_setup(t, N_VGetArrayPointer(y), gamma);
+      self->problem.precond_setup(self->inside(t), N_VGetArrayPointer(y), gamma);
       *jcur = SUNTRUE;
       return 0;
     } catch (const NumericalError&) {
       return 1;  // recoverable: a singular block at this gamma, CVODE cuts the step
     } catch (...) {
       self->pending = std::current_exception();
-      return -1;
+      return kUnrecoverable;
     }
   }
   static int psolve(realtype, N_Vector, N_Vector, N_Vector r, N_Vector z, realtype, realtype, int,
@@ -95,7 +159,7 @@ struct OdeIntegrator::Impl {
       return 0;
     } catch (...) {
       self->pending = std::current_exception();
-      return -1;
+      return kUnrecoverable;
     }
   }
   static void on_error(int, const char*, const char* function, char* msg, void* data) {
@@ -120,13 +184,15 @@ struct OdeIntegrator::Impl {
     if (flag < 0) throw NumericalError(problem.label + ": CVODE " + what + " failed (" + std::to_string(flag) + ")");
   }
 
-  void accumulate_and_free() {
-    if (!mem) return;
+  OdeStats current() const {
+    OdeStats st;
+    if (!mem || !started) return st;
     long v = 0;
-    CVodeGetNumSteps(mem, &v); base.steps += v;
-    CVodeGetNumRhsEvals(mem, &v); base.rhs_evaluations += v;
-    CVodeGetNumErrTestFails(mem, &v); base.error_test_failures += v;
-    if (options.scheme == OdeScheme::Bdf) { CVodeGetNumLinIters(mem, &v); base.linear_iterations += v; }
+    CVodeGetNumSteps(mem, &v); st.steps = v;
+    CVodeGetNumRhsEvals(mem, &v); st.rhs_evaluations = v;
+    CVodeGetNumErrTestFails(mem, &v); st.error_test_failures = v;
+    if (options.scheme == OdeScheme::Bdf) { CVodeGetNumLinIters(mem, &v); st.linear_iterations = v; }
+    return st;
   }
 
   void init(double t0) {
@@ -150,9 +216,10 @@ struct OdeIntegrator::Impl {
         if (prec) check(CVodeSetPreconditioner(mem, psetup, psolve), "preconditioner");
       }
     } else {
-      accumulate_and_free();  // counters restart at re-init
+      base += current();  // counters restart at re-init
       check(CVodeReInit(mem, t0, y), "re-init");
     }
+    if (options.initial_step > 0) check(CVodeSetInitStep(mem, options.initial_step), "first step");
     t = t0;
     started = true;
   }
@@ -163,7 +230,9 @@ OdeIntegrator::OdeIntegrator(OdeProblem problem, OdeOptions options) : impl_(std
   if (problem.size < 1 || !problem.rhs) throw InputError(problem.label + ": empty ODE problem");
   impl_->problem = std::move(problem);
   impl_->options = options;
-  std::sort(impl_->problem.breakpoints.begin(), impl_->problem.breakpoints.end());
+  auto& bp = impl_->problem.breakpoints;
+  std::sort(bp.begin(), bp.end());
+  bp.erase(std::unique(bp.begin(), bp.end()), bp.end());
   if (SUNContext_Create(nullptr, &impl_->ctx) != 0) throw NumericalError("SUNDIALS context failed");
   impl_->y = N_VNew_Serial(impl_->problem.size, impl_->ctx);
   impl_->ele = N_VNew_Serial(impl_->problem.size, impl_->ctx);
@@ -182,35 +251,35 @@ void OdeIntegrator::advance(double target, double* yout) {
   Impl& s = *impl_;
   if (!s.started) throw NumericalError(s.problem.label + ": advance before reset");
   const int n = s.problem.size;
+  const std::vector<double>& bps = s.problem.breakpoints;
   while (s.t != target) {
-    const double dir = target > s.t ? 1.0 : -1.0;
-    // The next stop: the first breakpoint strictly between t and target, else target.
-    double stop = target;
-    bool at_breakpoint = false;
-    // A breakpoint equal to the target counts too: the next leg then restarts past the jump.
-    for (double bp : s.problem.breakpoints)
-      if (dir * (bp - s.t) > 0 && dir * (target - bp) >= 0 && dir * (stop - bp) >= 0) {
-        stop = bp;
-        at_breakpoint = true;
+    const bool forward = target > s.t;
+    // The first breakpoint strictly beyond t in the direction of travel, if any. A breakpoint
+    // equal to the target counts too: the next leg then restarts past the jump.
+    const auto next_after = [&](double from) -> const double* {
+      if (forward) {
+        auto it = std::upper_bound(bps.begin(), bps.end(), from);
+        return it == bps.end() ? nullptr : &*it;
       }
+      auto it = std::lower_bound(bps.begin(), bps.end(), from);
+      return it == bps.begin() ? nullptr : &*(it - 1);
+    };
+    const double* bp = next_after(s.t);
+    const bool at_breakpoint = bp && (forward ? *bp <= target : *bp >= target);
+    const double stop = at_breakpoint ? *bp : target;
     if (!at_breakpoint && !s.problem.on_step) {
       // No jump before the target: let CVODE step past it and interpolate (its dense output
       // is of the method's order), stopping only at the next breakpoint beyond, if any. Output
       // times then cost no extra steps.
-      double beyond = 0;
-      bool has_beyond = false;
-      for (double bp : s.problem.breakpoints)
-        if (dir * (bp - target) > 0 && (!has_beyond || dir * (beyond - bp) > 0)) {
-          beyond = bp;
-          has_beyond = true;
-        }
-      if (has_beyond) s.check(CVodeSetStopTime(s.mem, beyond), "stop time");
+      if (bp) s.check(CVodeSetStopTime(s.mem, *bp), "stop time");
+      s.set_leg(s.t, bp ? *bp : target);
       realtype tret = s.t;
       s.after_call(CVode(s.mem, target, s.y, &tret, CV_NORMAL), tret);
       s.t = target;
       break;
     }
     s.check(CVodeSetStopTime(s.mem, stop), "stop time");
+    s.set_leg(s.t, stop);
     long steps = 0;
     while (true) {
       realtype tret = s.t;
@@ -223,9 +292,9 @@ void OdeIntegrator::advance(double target, double* yout) {
       }
       if (flag == CV_TSTOP_RETURN || tret == stop) break;
       if (++steps > s.options.max_steps)
-        throw NumericalError(s.problem.label + ": more than " + std::to_string(s.options.max_steps) +
-                             " steps before t = " + format_number(stop) + " (reached t = " +
-                             format_number(tret) + ")");
+        throw NumericalError(s.problem.label + ": more than OdeOptions::max_steps = " +
+                             std::to_string(s.options.max_steps) + " steps before t = " + format_number(stop) +
+                             " (reached t = " + format_number(tret) + ")");
     }
     s.t = stop;
     // Past a breakpoint the right-hand side may jump: restart the method there.
@@ -236,13 +305,7 @@ void OdeIntegrator::advance(double target, double* yout) {
 
 OdeStats OdeIntegrator::stats() const {
   OdeStats st = impl_->base;
-  if (impl_->mem && impl_->started) {
-    long v = 0;
-    CVodeGetNumSteps(impl_->mem, &v); st.steps += v;
-    CVodeGetNumRhsEvals(impl_->mem, &v); st.rhs_evaluations += v;
-    CVodeGetNumErrTestFails(impl_->mem, &v); st.error_test_failures += v;
-    if (impl_->options.scheme == OdeScheme::Bdf) { CVodeGetNumLinIters(impl_->mem, &v); st.linear_iterations += v; }
-  }
+  st += impl_->current();
   return st;
 }
 

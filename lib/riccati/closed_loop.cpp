@@ -5,6 +5,7 @@
 
 #include "io/errors.hpp"
 #include "propagation/propagator.hpp"
+#include "propagation/state_simulator.hpp"
 
 namespace ordex {
 
@@ -24,8 +25,11 @@ void GainEvaluator::closed_loop_matrix(double t, MatrixRef out) {
 }
 
 void ClosedLoopOptions::validate() const {
-  if (!(rtol >= 1e-14 && rtol <= 1e-1)) throw InputError("closed-loop rtol: must lie in [1e-14, 0.1]");
-  if (!(atol > 0 && std::isfinite(atol))) throw InputError("closed-loop atol: must be positive");
+  if (!(rtol >= 1e-14 && rtol <= 1e-1))
+    throw InputError("ClosedLoopOptions::rtol = " + format_number(rtol) + " is outside [1e-14, 0.1]");
+  if (!(atol > 0 && std::isfinite(atol)))
+    throw InputError("ClosedLoopOptions::atol = " + format_number(atol) + " must be a positive number");
+  if (max_steps < 1) throw InputError("ClosedLoopOptions::max_steps = " + std::to_string(max_steps) + " must be at least 1");
 }
 
 ClosedLoopRun simulate_closed_loop(const System& sys, const Weights& w, const RiccatiSolution& sol,
@@ -33,63 +37,54 @@ ClosedLoopRun simulate_closed_loop(const System& sys, const Weights& w, const Ri
                                    const ClosedLoopOptions& options) {
   options.validate();
   const int n = sys.states(), m = sys.inputs();
-  if (x0.size() != n) throw InputError("--x0: " + std::to_string(x0.size()) + " entries, the model has " +
+  if (x0.size() != n) throw InputError("x0: " + std::to_string(x0.size()) + " entries, the model has " +
                                        std::to_string(n) + " states");
-  struct Work {
-    Work(const System& s, const Weights& w, const RiccatiSolution& sol, int n, int m)
-        : gains(s, w, sol), K(m, n), x(n), u(m), dx(n) {}
-    GainEvaluator gains;
-    Eigen::MatrixXd K;
-    Eigen::VectorXd x, u, dx;
+  // The plant's A and B come from the coefficients the gain was computed with (evaluated once
+  // per t), so the simulation and the running cost see the same matrices.
+  auto gains = std::make_shared<GainEvaluator>(sys, w, sol);
+  auto K = std::make_shared<Eigen::MatrixXd>(m, n);
+  StateSimulation sim;
+  sim.plant = linear_plant(sys);
+  sim.plant.label = "closed-loop simulation";
+  sim.plant.A = [gains](double t, MatrixRef a) {
+    gains->coefficients().at(t);
+    a = gains->coefficients().A;
   };
-  auto work = std::make_shared<Work>(sys, w, sol, n, m);
-
-  OdeProblem problem;
-  problem.size = n + 1;  // x, then the running cost so far
-  problem.label = "closed-loop simulation";
-  problem.rhs = [work, n](double t, const double* y, double* ydot) {
-    Work& k = *work;
-    k.x = Eigen::Map<const Eigen::VectorXd>(y, n);
-    k.gains.K_at(t, k.K);
-    const LqrCoefficients& c = k.gains.coefficients();
-    k.u.noalias() = -k.K * k.x;
-    k.dx.noalias() = c.A * k.x;
-    k.dx.noalias() += c.B * k.u;
-    Eigen::Map<Eigen::VectorXd>(ydot, n) = k.dx;
-    ydot[n] = c.running_cost(k.x, k.u);
+  sim.plant.B = [gains](double t, MatrixRef b) {
+    gains->coefficients().at(t);
+    b = gains->coefficients().B;
+  };
+  sim.input.gain = [gains, K](double t, MatrixRef k) {
+    gains->K_at(t, *K);
+    k = *K;
+  };
+  // x'Q x + 2 x'N u + u'R u with the coefficients of the gain just evaluated at t.
+  sim.running_cost = [gains](double t, const Eigen::VectorXd& x, const Eigen::VectorXd& u) {
+    gains->coefficients().at(t);
+    return gains->coefficients().running_cost(x, u);
   };
   const double t0 = sol.t0(), t1 = sol.t1();
-  problem.breakpoints = sys.breakpoints_between(t0, t1);
   OdeOptions ode;
   ode.scheme = OdeScheme::Adams;
   ode.rtol = options.rtol;
   ode.atol = options.atol;
-  OdeIntegrator integrator(problem, ode);
+  ode.max_steps = options.max_steps;
+  const SimulationResult r = simulate_states(sim, t0, x0, output_times, ode);
+  if (r.stats.steps > options.max_steps)
+    throw NumericalError("closed-loop simulation: more than ClosedLoopOptions::max_steps = " +
+                         std::to_string(options.max_steps) + " steps by t = " + format_number(output_times.back()));
 
   ClosedLoopRun run;
   run.x0 = x0;
   run.times = output_times;
-  run.states.resize(static_cast<Eigen::Index>(output_times.size()), n);
-  run.inputs.resize(static_cast<Eigen::Index>(output_times.size()), m);
-  std::vector<double> y(static_cast<std::size_t>(n + 1), 0.0);
-  Eigen::Map<Eigen::VectorXd>(y.data(), n) = x0;
-  integrator.reset(t0, y.data());
-  Eigen::MatrixXd K(m, n);
-  for (std::size_t k = 0; k < output_times.size(); ++k) {
-    const double t = output_times[k];
-    if (t != t0) integrator.advance(t, y.data());
-    Eigen::Map<const Eigen::VectorXd> x(y.data(), n);
-    if (!x.allFinite() || !std::isfinite(y[n]))
-      throw NumericalError("closed-loop simulation: state is not finite at t = " + format_number(t));
-    work->gains.K_at(t, K);
-    run.states.row(static_cast<Eigen::Index>(k)) = x.transpose();
-    run.inputs.row(static_cast<Eigen::Index>(k)) = (-K * x).transpose();
-  }
-  run.x_final = Eigen::Map<const Eigen::VectorXd>(y.data(), n);
+  run.states = r.states;
+  run.inputs = r.inputs;
+  run.x_final = output_times.empty() ? x0 : Eigen::VectorXd(r.states.bottomRows(1).transpose());
+  const double cost_so_far = output_times.empty() ? 0.0 : r.cost(r.cost.size() - 1);
   const Eigen::MatrixXd Qf = w.Qf.at(t1);
-  run.cost_simulated = y[n] + run.x_final.dot(Qf * run.x_final);
+  run.cost_simulated = cost_so_far + run.x_final.dot(Qf * run.x_final);
   run.cost_predicted = x0.dot(sol.P.front() * x0);
-  run.stats = integrator.stats();
+  run.stats = r.stats;
   return run;
 }
 

@@ -37,6 +37,9 @@ struct ClosedLoopOptions {
   double rtol = 1e-10;
   /// Absolute tolerance of the simulation; default 1e-12. Must be > 0.
   double atol = 1e-12;
+  /// Most integrator steps over the whole run before it fails as a NumericalError (a bounded
+  /// cost on stiff plants); default 10^7. Must be >= 1.
+  long max_steps = 10000000;
   /// Throws InputError naming the option when out of range.
   void validate() const;
 };

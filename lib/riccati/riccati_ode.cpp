@@ -1,16 +1,14 @@
-// The Riccati equation itself, integrated backwards from t1 by CVODE BDF on the n(n+1)/2
-// entries of the upper triangle of P (symmetric by construction). Newton's linear systems are
-// (I - gamma J) z = r with J X = -(Acl' X + X Acl), Acl = A - B K: GMRES with the exact
-// preconditioner that solves (I/2 + gamma Acl)' X + X (I/2 + gamma Acl) = R by Bartels-Stewart
-// in O(n^3), so GMRES converges in about one iteration and no n(n+1)/2-square Jacobian is formed.
-#include <algorithm>
+// The Riccati equation itself, integrated backwards from t1 by the engine's symmetric matrix
+// equation service (propagation/symmetric_matrix_ode.hpp, CVODE BDF with the exact Schur-based
+// Lyapunov preconditioner). In the service's form dP/dt = F P + P F' + S - P G W G' P:
+//   -dP/dt = A~'P + P A~ + Q~ - P B R^-1 B' P,  A~ = A - B R^-1 N',  Q~ = Q - N R^-1 N'
+// (the cross weight N folded in), so F = -A~', S = -Q~, G = B, W = -R^-1, and the service's
+// closed-loop matrix F - P G W G' is -(A - B K)'.
 #include <cmath>
 #include <memory>
 
 #include "io/errors.hpp"
-#include "propagation/lyapunov_solver.hpp"
-#include "propagation/ode_integrator.hpp"
-#include "propagation/symmetric_packing.hpp"
+#include "propagation/symmetric_matrix_ode.hpp"
 #include "riccati/lqr_coefficients.hpp"
 #include "riccati/riccati_routes.hpp"
 
@@ -19,129 +17,66 @@ namespace riccati_detail {
 
 namespace {
 
-// Bound on |gamma| ||Acl||_1 below which the identity preconditions the Newton systems.
-constexpr double kIdentityPreconditionerBelow = 0.1;
-
-struct OdeWorkspace {
-  OdeWorkspace(const System& sys, const Weights& w)
-      : coeff(sys, w), n(sys.states()), P(n, n), dP(n, n), K(sys.inputs(), n), Acl(n, n), X(n, n), JX(n, n),
-        F(n, n) {}
+/// F, S, W of the service at one time, from the plant and the weights.
+struct RiccatiTerms {
+  RiccatiTerms(const System& sys, const Weights& w)
+      : coeff(sys, w), F(sys.states(), sys.states()), S(sys.states(), sys.states()),
+        W(sys.inputs(), sys.inputs()), RinvNt(sys.inputs(), sys.states()) {}
   LqrCoefficients coeff;
-  int n;
-  // The plant may jump at a breakpoint: there the coefficients are taken from the side of the
-  // interval being integrated (toward MID), so that the value at the jump belongs to it.
-  std::vector<double> breakpoints;
-  double mid = 0, nudge = 0;
-  double coefficient_time(double t) const {
-    for (double b : breakpoints)
-      if (std::abs(t - b) <= nudge) return b + (mid > b ? nudge : -nudge);
-    return t;
-  }
-  Eigen::MatrixXd P, dP, K, Acl, X, JX, F;
-  SchurLyapunovSolver lyapunov;
-  Eigen::MatrixXd factored;      // the Acl whose Schur form the preconditioner holds
-  long factorizations = 0;
-  bool use_identity = false;     // the preconditioner is the identity at this gamma
-  std::vector<double> last_y;    // (t, y) of the Acl in hand: GMRES asks J v many times per y
-  double last_t = NAN;
+  Eigen::MatrixXd F, S, W, RinvNt;
+  Eigen::LLT<Eigen::MatrixXd> llt;
+  double t = NAN;
 
-  // Acl = A - B K at (t, y).
-  void closed_loop(double t, const double* y) {
-    const std::size_t size = static_cast<std::size_t>(n) * (n + 1) / 2;
-    if (t == last_t && last_y.size() == size && std::equal(y, y + size, last_y.begin())) return;
-    last_t = t;
-    last_y.assign(y, y + size);
-    unpack_symmetric(y, P);
-    coeff.at(coefficient_time(t));
-    coeff.gain(P, K);
-    Acl = coeff.A;
-    Acl.noalias() -= coeff.B * K;
+  void at(double time) {
+    if (time == t) return;
+    t = NAN;
+    coeff.at(time);  // throws NumericalError when R is not positive definite at TIME
+    llt.compute(coeff.R);
+    RinvNt = llt.solve(coeff.N.transpose());
+    F = -coeff.A.transpose();
+    F.noalias() += RinvNt.transpose() * coeff.B.transpose();  // -(A - B R^-1 N')'
+    S = -coeff.Q;
+    S.noalias() += coeff.N * RinvNt;                           // -(Q - N R^-1 N')
+    W = -llt.solve(Eigen::MatrixXd::Identity(coeff.m(), coeff.m()));
+    t = time;
   }
 };
 
 }  // namespace
 
 void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOptions& options, RiccatiSolution& sol) {
-  const int n = sys.states();
-  const int size = n * (n + 1) / 2;
-  auto ws = std::make_shared<OdeWorkspace>(sys, w);
-
-  OdeProblem problem;
-  problem.size = size;
-  problem.label = "Riccati equation (CVODE BDF)";
-  problem.rhs = [ws](double t, const double* y, double* ydot) {
-    unpack_symmetric(y, ws->P);
-    ws->coeff.at(ws->coefficient_time(t));
-    ws->coeff.riccati_rhs(ws->P, ws->dP, ws->K);
-    pack_symmetric(ws->dP, ydot);
-  };
-  problem.jac_times = [ws](double t, const double* y, const double* v, double* Jv) {
-    ws->closed_loop(t, y);
-    unpack_symmetric(v, ws->X);
-    ws->JX.noalias() = -ws->Acl.transpose() * ws->X;
-    ws->JX.noalias() -= ws->X * ws->Acl;
-    pack_symmetric(ws->JX, Jv);
-  };
-  problem.precond_setup = [ws](double t, const double* y, double gamma) {
-    ws->closed_loop(t, y);
-    // When |gamma| ||Acl|| is small, I - gamma J is within that distance of I and GMRES
-    // converges in one or two unpreconditioned iterations (a product J v costs two n x n
-    // products; the Schur solve about eight complex ones): the identity is used then.
-    ws->use_identity = std::abs(gamma) * ws->Acl.lpNorm<1>() < kIdentityPreconditionerBelow;
-    if (ws->use_identity) return;
-    // The Schur form of Acl serves every gamma; it is renewed when Acl has moved by more than
-    // 5 % (a slightly stale preconditioner costs GMRES an iteration, never accuracy).
-    const double drift = ws->factorizations == 0 ? INFINITY
-                                                 : (ws->Acl - ws->factored).cwiseAbs().maxCoeff() /
-                                                       std::max(1e-300, ws->factored.cwiseAbs().maxCoeff());
-    if (drift > 0.05) {
-      ws->lyapunov.factor(ws->Acl);
-      ws->factored = ws->Acl;
-      ++ws->factorizations;
-    }
-    ws->lyapunov.set_shift(0.5, gamma);
-  };
-  problem.precond_solve = [ws](const double* r, double* z) {
-    if (ws->use_identity) {
-      std::copy(r, r + ws->n * (ws->n + 1) / 2, z);
-      return;
-    }
-    unpack_symmetric(r, ws->X);
-    ws->lyapunov.solve(ws->X, ws->JX);
-    pack_symmetric(ws->JX, z);
-  };
+  const int n = sys.states(), m = sys.inputs();
+  auto terms = std::make_shared<RiccatiTerms>(sys, w);
   const double t0 = sol.nodes.front(), t1 = sol.nodes.back();
-  // Every breakpoint is a node of the dense grid (dense_grid), so no advance() below crosses one;
-  // the integrator is restarted at each instead.
-  ws->breakpoints = sys.breakpoints_between(t0, t1);
-  ws->nudge = 1e-9 * std::max(1.0, std::max(std::abs(t0), std::abs(t1)));
 
-  OdeOptions ode;
+  SymmetricMatrixOde eq;
+  eq.n = n;
+  eq.quadratic_rank = m;
+  eq.F = [terms](double t, MatrixRef F) { terms->at(t); F = terms->F; };
+  eq.S = [terms](double t, MatrixRef S) { terms->at(t); S = terms->S; };
+  eq.G = [terms](double t, MatrixRef G) { terms->at(t); G = terms->coeff.B; };
+  eq.W = [terms](double t, MatrixRef W) { terms->at(t); W = terms->W; };
+  // The integrator lands on every breakpoint and takes the coefficients there from the side
+  // being integrated, so a plant that jumps is followed exactly.
+  eq.breakpoints = sys.breakpoints_between(t0, t1);
+  eq.label = "Riccati equation (CVODE BDF)";
+  eq.symbol = "P";
+  // The route is BDF whatever PropagationOptions::method says (riccati_solver.hpp).
+  OdeOptions ode = ode_options(options.propagation, OdeScheme::Bdf);
   ode.scheme = OdeScheme::Bdf;
-  ode.rtol = options.propagation.rtol;
-  ode.atol = options.propagation.atol;
-  ode.max_steps = options.propagation.max_steps;
-  ode.max_step = options.propagation.max_step;
-  OdeIntegrator integrator(problem, ode);
+  SymmetricMatrixOdeSolver solver(std::move(eq), ode);
 
-  std::vector<double> y(static_cast<std::size_t>(size));
   Eigen::MatrixXd P = w.Qf.at(t1);
   P = (0.5 * (P + P.transpose())).eval();  // eval: in place it would alias
   sol.P.back() = P;
-  pack_symmetric(P, y.data());
-  integrator.reset(t1, y.data());
+  solver.start(t1, P);
   const std::size_t count = sol.nodes.size();
   for (std::size_t i = count - 1; i-- > 0;) {
-    const double t = sol.nodes[i], from = sol.nodes[i + 1];
-    for (double b : ws->breakpoints)
-      if (std::abs(b - from) <= ws->nudge) integrator.reset(from, y.data());
-    ws->mid = 0.5 * (t + from);
-    integrator.advance(t, y.data());
-    unpack_symmetric(y.data(), sol.P[i]);
-    require_finite_matrix(sol.P[i], "P (Riccati equation)", t);
+    const double t = sol.nodes[i];
+    solver.advance(t, sol.P[i]);
     if (options.propagation.progress) options.propagation.progress(double(count - 1 - i) / double(count - 1));
   }
-  const OdeStats st = integrator.stats();
+  const SymmetricOdeStats st = solver.stats();
   sol.stats.engine = "cvode-bdf";
   sol.stats.steps = st.steps;
   sol.stats.evaluations = st.rhs_evaluations;

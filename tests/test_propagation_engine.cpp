@@ -293,7 +293,16 @@ TEST(PropagationOptions, ValidationNamesTheOption) {
     o.validate();
     FAIL();
   } catch (const InputError& e) {
-    EXPECT_NE(std::string(e.what()).find("--rtol"), std::string::npos);
+    // The library names the field, never a command-line flag (the apps translate).
+    EXPECT_EQ(std::string(e.what()), "PropagationOptions::rtol = 0 is outside [1e-14, 0.1]");
+  }
+  o.rtol = 1e-8;
+  o.max_steps = 0;
+  try {
+    o.validate();
+    FAIL();
+  } catch (const InputError& e) {
+    EXPECT_NE(std::string(e.what()).find("PropagationOptions::max_steps = 0"), std::string::npos) << e.what();
   }
   EXPECT_THROW(parse_method("rk4"), InputError);
   EXPECT_EQ(parse_method("magnus6"), Method::Magnus6);

@@ -33,7 +33,7 @@ class MagnusStepper : public StepperBase {
     if (!(h > 0)) h = initial_step(a, std::abs(span), stats);
     if (o_.max_step > 0) h = std::min(h, o_.max_step);
     const double p = order_;
-    long steps_here = 0;
+    long steps_here = 0, trials_here = 0;
     while (dir * (b - t) > 0) {
       double remaining = std::abs(b - t);
       bool last = false;
@@ -47,24 +47,23 @@ class MagnusStepper : public StepperBase {
         ++steps_here;
         break;
       }
-      step(t, hd, full_, stats);
-      step(t, hd / 2, h1_, stats);
-      step(t + hd / 2, hd / 2, h2_, stats);
-      half_.noalias() = h2_ * h1_;
-      diff_ = half_ - full_;
-      xnew_.noalias() = half_ * X;
-      err_.noalias() = diff_ * X;
-      err_ /= (std::pow(2.0, p) - 1.0);
-      if (!xnew_.allFinite())
-        throw NumericalError(g_.label + ": transition matrix is not finite at t = " + format_number(t));
-      // Weighted RMS of the local error, entrywise weights as CVODE uses.
-      double sum = 0;
-      for (Eigen::Index k = 0; k < err_.size(); ++k) {
-        double w = o_.atol + o_.rtol * std::abs(xnew_(k));
-        double r = err_(k) / w;
-        sum += r * r;
+      // A trial step whose exponentials or product overflow (a step far too long for a stiff
+      // generator: the truncated Omega is then no longer close to the true logarithm) is a
+      // rejected step, retried shorter, never a failure by itself.
+      bool finite = step(t, hd, full_, stats) && step(t, hd / 2, h1_, stats) &&
+                    step(t + hd / 2, hd / 2, h2_, stats);
+      double e = std::numeric_limits<double>::infinity();
+      if (finite) {
+        half_.noalias() = h2_ * h1_;
+        diff_ = half_ - full_;
+        xnew_.noalias() = half_ * X;
+        err_.noalias() = diff_ * X;
+        err_ /= (std::pow(2.0, p) - 1.0);
+        finite = xnew_.allFinite() && err_.allFinite();
+        if (finite) e = weighted_rms(err_, xnew_);
+        if (!std::isfinite(e)) finite = false;
       }
-      double e = std::sqrt(sum / static_cast<double>(err_.size()));
+      last_trial_finite_ = finite;
       double factor = e > 0 ? 0.9 * std::pow(e, -1.0 / (p + 1.0)) : 5.0;
       factor = std::min(5.0, std::max(0.2, factor));
       if (e <= 1.0) {
@@ -82,12 +81,28 @@ class MagnusStepper : public StepperBase {
         h = hs * factor;
       }
       if (o_.max_step > 0) h = std::min(h, o_.max_step);
-      if (h < 64 * std::numeric_limits<double>::epsilon() * std::max(1.0, std::abs(t)))
+      if (h < 64 * std::numeric_limits<double>::epsilon() * std::max(1.0, std::abs(t))) {
+        if (!last_trial_finite_)
+          throw NumericalError(g_.label + ": transition matrix is not finite at t = " + format_number(t) +
+                               " (steps rejected down to underflow)");
         throw NumericalError(g_.label + ": step size underflow at t = " + format_number(t));
-      if (steps_here + stats.rejected_steps > o_.max_steps)
-        throw NumericalError(g_.label + ": more than " + std::to_string(o_.max_steps) +
-                             " steps before t = " + format_number(b) + " (reached t = " +
-                             format_number(t) + ")");
+      }
+      ++trials_here;
+      if (trials_here > o_.max_steps)
+        throw NumericalError(g_.label + ": more than PropagationOptions::max_steps = " +
+                             std::to_string(o_.max_steps) + " steps before t = " + format_number(b) +
+                             " (reached t = " + format_number(t) + ")");
+      // A window far longer than the step allows ends early with the projected count rather
+      // than grinding through max_steps: checked every 4096 trials at the current step size,
+      // with a 10x margin so that a transient of short steps is not mistaken for the pace.
+      if ((trials_here & 4095) == 0) {
+        const double projected = std::abs(b - t) / h;  // double: cannot overflow
+        if (projected > 10.0 * static_cast<double>(o_.max_steps - trials_here))
+          throw NumericalError(g_.label + ": the window to t = " + format_number(b) + " needs about " +
+                               format_number(projected) + " more steps of " + format_number(h) +
+                               " (reached t = " + format_number(t) +
+                               "), more than PropagationOptions::max_steps = " + std::to_string(o_.max_steps));
+      }
     }
     h_desired_ = h;
     if (progress) progress(b);
@@ -112,30 +127,46 @@ class MagnusStepper : public StepperBase {
   /// even that estimate fails the tolerance, returns false and the caller steps as usual.
   bool short_leg(double t, double hd, Eigen::MatrixXd& X, Eigen::MatrixXd& error, PropagationStats& stats) {
     embedded_ = true;
-    step(t, hd, half_, stats);
+    const bool finite = step(t, hd, half_, stats);
     embedded_ = false;
+    if (!finite) return false;
     xnew_.noalias() = half_ * X;
     err_.noalias() = delta_ * xnew_;  // exp(Omega6) - exp(Omega4) ~ (Omega6 - Omega4) exp(Omega6)
-    if (!xnew_.allFinite()) return false;
-    double sum = 0;
-    for (Eigen::Index k = 0; k < err_.size(); ++k) {
-      double r = err_(k) / (o_.atol + o_.rtol * std::abs(xnew_(k)));
-      sum += r * r;
-    }
-    if (std::sqrt(sum / static_cast<double>(err_.size())) > 1.0) return false;
+    if (!xnew_.allFinite() || !err_.allFinite()) return false;
+    if (!(weighted_rms(err_, xnew_) <= 1.0)) return false;
     diff_.noalias() = half_ * error;
     error = diff_ + err_;
     X.swap(xnew_);
     return true;
   }
 
-  /// S = exp(Omega) for the step from t of signed length h.
-  void step(double t, double h, Eigen::MatrixXd& S, PropagationStats& stats) {
+  /// Weighted RMS of the local error ERR of XNEW, entrywise weights atol + rtol |x| as CVODE
+  /// uses; above 1 fails the tolerance.
+  double weighted_rms(const Eigen::MatrixXd& err, const Eigen::MatrixXd& xnew) const {
+    double sum = 0;
+    for (Eigen::Index k = 0; k < err.size(); ++k) {
+      double r = err(k) / (o_.atol + o_.rtol * std::abs(xnew(k)));
+      sum += r * r;
+    }
+    return std::sqrt(sum / static_cast<double>(err.size()));
+  }
+
+  /// Throws when G itself is not finite at a node: that is the model's failure, which no
+  /// shorter step can cure.
+  void require_finite_generator(const Eigen::MatrixXd& m, double t) const {
+    if (!m.allFinite()) throw NumericalError(g_.label + " is not finite at t = " + format_number(t));
+  }
+
+  /// S = exp(Omega) for the step from t of signed length h. Returns false when Omega or S
+  /// overflows (the caller rejects the step).
+  bool step(double t, double h, Eigen::MatrixXd& S, PropagationStats& stats) {
     if (order_ == 4) {
       const double d = std::sqrt(3.0) / 6.0;
       g_.eval(t + (0.5 - d) * h, a1_);
       g_.eval(t + (0.5 + d) * h, a2_);
       stats.evaluations += 2;
+      require_finite_generator(a1_, t + (0.5 - d) * h);
+      require_finite_generator(a2_, t + (0.5 + d) * h);
       // Omega = h/2 (A1 + A2) + sqrt(3) h^2 / 12 [A2, A1]
       omega_ = (0.5 * h) * (a1_ + a2_);
       c1_.noalias() = a2_ * a1_;
@@ -147,6 +178,9 @@ class MagnusStepper : public StepperBase {
       g_.eval(t + 0.5 * h, a2_);
       g_.eval(t + (0.5 + d) * h, a3_);
       stats.evaluations += 3;
+      require_finite_generator(a1_, t + (0.5 - d) * h);
+      require_finite_generator(a2_, t + 0.5 * h);
+      require_finite_generator(a3_, t + (0.5 + d) * h);
       // alpha1 = h A2, alpha2 = sqrt(15) h / 3 (A3 - A1), alpha3 = 10 h / 3 (A3 - 2 A2 + A1)
       // C1 = [alpha1, alpha2], C2 = -1/60 [alpha1, 2 alpha3 + C1]
       // Omega = alpha1 + alpha3 / 12 + 1/240 [-20 alpha1 - alpha3 + C1, alpha2 + C2]
@@ -169,9 +203,9 @@ class MagnusStepper : public StepperBase {
       omega_.noalias() -= (1.0 / 240.0) * (a2_ * a1_);
       if (embedded_) delta_ = omega_ - delta_;      // Omega6 - Omega4
     }
-    if (!omega_.allFinite())
-      throw NumericalError(g_.label + " is not finite near t = " + format_number(t));
+    if (!omega_.allFinite()) return false;
     expm_.compute(omega_, S);
+    return S.allFinite();
   }
 
   Generator g_;
@@ -180,6 +214,7 @@ class MagnusStepper : public StepperBase {
   double h_desired_ = 0;
   bool h_validated_ = false;  // a step of about h_desired_ has passed the error test
   bool embedded_ = false;     // step() also forms delta_ = Omega6 - Omega4
+  bool last_trial_finite_ = true;  // the last full trial step was finite
   Eigen::MatrixXd delta_, a1_, a2_, a3_, omega_, c1_, c2_, t1_, t2_, full_, h1_, h2_, half_, diff_, xnew_, err_;
   MatrixExponential expm_;
 };

@@ -20,20 +20,22 @@ std::string method_name(Method m) {
 Method parse_method(const std::string& name) {
   for (Method m : {Method::Auto, Method::Magnus4, Method::Magnus6, Method::Adams, Method::Bdf})
     if (name == method_name(m)) return m;
-  throw InputError("--method: unknown method '" + name +
+  throw InputError("PropagationOptions::method: unknown method '" + name +
                    "' (choose auto, magnus4, magnus6, adams or bdf)");
 }
 
 void PropagationOptions::validate() const {
+  const std::string field = "PropagationOptions::";
   if (!(rtol >= 1e-14 && rtol <= 1e-1))
-    throw InputError("--rtol: " + format_number(rtol) + " is outside [1e-14, 0.1]");
+    throw InputError(field + "rtol = " + format_number(rtol) + " is outside [1e-14, 0.1]");
   if (!(atol > 0 && std::isfinite(atol)))
-    throw InputError("--atol: " + format_number(atol) + " must be a positive number");
+    throw InputError(field + "atol = " + format_number(atol) + " must be a positive number");
   if (!(initial_step >= 0 && std::isfinite(initial_step)))
-    throw InputError("initial step: " + format_number(initial_step) + " must be >= 0");
+    throw InputError(field + "initial_step = " + format_number(initial_step) + " must be >= 0");
   if (!(max_step >= 0 && std::isfinite(max_step)))
-    throw InputError("max step: " + format_number(max_step) + " must be >= 0");
-  if (max_steps < 1) throw InputError("max steps: must be at least 1");
+    throw InputError(field + "max_step = " + format_number(max_step) + " must be >= 0");
+  if (max_steps < 1)
+    throw InputError(field + "max_steps = " + std::to_string(max_steps) + " must be at least 1");
 }
 
 }  // namespace ordex

@@ -16,7 +16,8 @@ enum class Method {
 
 /// "auto", "magnus4", "magnus6", "adams", "bdf".
 std::string method_name(Method m);
-/// Inverse of method_name; throws InputError "--method: unknown method 'x' (choose ...)".
+/// Inverse of method_name; throws InputError "PropagationOptions::method: unknown method 'x'
+/// (choose ...)".
 Method parse_method(const std::string& name);
 
 struct PropagationOptions {
@@ -40,7 +41,8 @@ struct PropagationOptions {
   /// empty (default).
   std::function<void(double fraction)> progress;
 
-  /// Throws InputError naming the option when a field is out of range.
+  /// Throws InputError naming the field when it is out of range, in the form
+  /// "PropagationOptions::rtol = 1 is outside [1e-14, 0.1]".
   void validate() const;
 };
 

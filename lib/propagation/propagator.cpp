@@ -108,7 +108,14 @@ Eigen::MatrixXd Propagator::transition(double t0, double t1) {
       span >= 2 * *generator_.period) {
     // Floquet: Phi(t0 + kT + r, t0) = Phi(t0 + r, t0) M^k, as A repeats with period T.
     const double T = *generator_.period, dir = t1 > t0 ? 1.0 : -1.0;
-    const long k = static_cast<long>(std::floor(span / T));
+    // The period count is converted to an integer only once it is known to fit (2^53: every
+    // count below is exact in a double, and M^k takes at most 53 squarings).
+    const double periods = std::floor(span / T);
+    if (!(periods <= 9007199254740992.0))
+      throw NumericalError(generator_.label + ": the window from t = " + format_number(t0) + " to " +
+                           format_number(t1) + " spans " + format_number(periods) +
+                           " periods, more than 2^53 (the largest exact period count)");
+    const long k = static_cast<long>(periods);
     advance(t0, t0 + dir * T, X, error);
     Eigen::MatrixXd Mk, EMk;
     power_with_error(X, error, k, Mk, EMk);
@@ -129,13 +136,19 @@ Eigen::MatrixXd Propagator::transition(double t0, double t1) {
 }
 
 std::vector<Eigen::MatrixXd> Propagator::transition_on_grid(double t0, const std::vector<double>& times) {
-  require_finite(t0, "t0");
   std::vector<Eigen::MatrixXd> out;
   out.reserve(times.size());
-  if (times.empty()) return out;
+  transition_on_grid(t0, times, [&](std::size_t, const Eigen::MatrixXd& phi) { out.push_back(phi); });
+  return out;
+}
+
+void Propagator::transition_on_grid(double t0, const std::vector<double>& times,
+                                    const std::function<void(std::size_t, const Eigen::MatrixXd&)>& visit) {
+  require_finite(t0, "t0");
+  if (times.empty()) return;
   if (times.size() == 1) {  // one output time: the whole-window path (uses the period)
-    out.push_back(transition(t0, times[0]));
-    return out;
+    visit(0, transition(t0, times[0]));
+    return;
   }
   double dir = 0;
   for (std::size_t k = 0; k < times.size(); ++k) {
@@ -155,7 +168,8 @@ std::vector<Eigen::MatrixXd> Propagator::transition_on_grid(double t0, const std
   // Progress over the whole grid rather than each leg.
   auto user_progress = options_.progress;
   const double span = std::abs(times.back() - t0);
-  for (double tk : times) {
+  for (std::size_t k = 0; k < times.size(); ++k) {
+    const double tk = times[k];
     if (user_progress && span > 0) {
       double start = prev;
       options_.progress = [user_progress, start, tk, t0, span](double f) {
@@ -163,12 +177,11 @@ std::vector<Eigen::MatrixXd> Propagator::transition_on_grid(double t0, const std
       };
     }
     advance(prev, tk, X, error);
-    out.push_back(X);
+    stats_.error_estimate = error.cwiseAbs().maxCoeff();
+    visit(k, X);
     prev = tk;
   }
   options_.progress = user_progress;
-  stats_.error_estimate = error.cwiseAbs().maxCoeff();
-  return out;
 }
 
 std::vector<Eigen::MatrixXd> Propagator::interval_maps(const std::vector<double>& times) {

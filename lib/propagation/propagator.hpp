@@ -33,6 +33,10 @@ class Propagator {
   /// Phi(times[k], t0) for every k. TIMES must be monotone (non-decreasing or non-increasing)
   /// and all on one side of t0; times equal to t0 give the identity.
   std::vector<Eigen::MatrixXd> transition_on_grid(double t0, const std::vector<double>& times);
+  /// As transition_on_grid, but hands each Phi(times[k], t0) to VISIT as it is computed instead
+  /// of keeping them (a long grid is never held in memory).
+  void transition_on_grid(double t0, const std::vector<double>& times,
+                          const std::function<void(std::size_t k, const Eigen::MatrixXd& phi)>& visit);
 
   /// S_k = Phi(times[k+1], times[k]) for k = 0 .. size-2, each integrated from the identity
   /// over its own interval (no inverse is ever taken). TIMES strictly monotone.

@@ -10,7 +10,11 @@
 //            band a_1(5) = 1.858 < a < b_2(5) = 2.099 of the Mathieu chart, values from
 //            scipy.special.mathieu_a / mathieu_b), so Phi stays bounded and every entry matters,
 //   random   A(t) = A0 + sin(w1 t) A1 + cos(w2 t) A2 with fixed-seed random entries scaled by
-//            1/sqrt(n) (spectral radius of order one for every n), n = 24, 48, 96.
+//            1/sqrt(n) (spectral radius of order one for every n), n = 24, 48, 96,
+//   eccentric  the orbit model at eccentricity 0.3 and 0.6 (--set ecc), one revolution,
+//   bank     ten coupled, pumped oscillators of 3 to 30 rad/s (n = 20),
+//   chain    a lightly damped, pumped chain of 20 masses (n = 40).
+// Every engine run is one long run (use_period = false), as the baseline's must be.
 //
 // Accuracy: each run's Phi is compared with a reference Phi_ref (magnus6 at rtol 1e-14), itself
 // checked against magnus6 at rtol 1e-13 and against the independent Odeint RKF78 run at rtol
@@ -71,12 +75,15 @@ FILE* g_out = stdout;
 // ---------------------------------------------------------------------------------------------
 // Options and report
 
+const std::string kProblemNames = "orbit,eccentric,mathieu,random,bank,chain";
+
 struct Options {
   /// --quick: a small smoke run (short Mathieu window, n = 12 and 24, four tolerances, short
   /// timing). Default false: the full run of docs/performance.md.
   bool quick = false;
-  /// --problems: comma-separated subset of orbit, mathieu, random; default all three.
-  std::string problems = "orbit,mathieu,random";
+  /// --problems: comma-separated subset of orbit, eccentric (the orbit model at e = 0.3 and
+  /// 0.6), mathieu, random, bank, chain; default all.
+  std::string problems = "orbit,eccentric,mathieu,random,bank,chain";
   /// --methods: comma-separated subset of magnus4, magnus6, adams, bdf, rkf78 (for profiling one
   /// method); the baseline rkf78 always runs, since speed-ups are measured against it. Default all.
   std::string methods = "magnus4,magnus6,adams,bdf,rkf78";
@@ -98,8 +105,8 @@ struct Options {
     std::string p;
     int count = 0;
     while (std::getline(in, p, ',')) {
-      if (p != "orbit" && p != "mathieu" && p != "random")
-        throw InputError("--problems: unknown problem '" + p + "' (choose orbit, mathieu, random)");
+      if (!listed(kProblemNames, p))
+        throw InputError("--problems: unknown problem '" + p + "' (choose from " + kProblemNames + ")");
       ++count;
     }
     if (count == 0) throw InputError("--problems: empty list");
@@ -172,6 +179,80 @@ Problem orbit_problem() {
   p.atol_ratio = 1e-5;
   p.description = "relative motion about an eccentric orbit, one revolution";
   return p;
+}
+
+/// The orbit model at another eccentricity of the target's orbit, over one revolution.
+Problem eccentric_orbit_problem(double ecc) {
+  Problem p = orbit_problem();
+  p.system = ordex::load_model(ORDEX_MODELS_DIR "/orbit_relative_motion.toml", {{"ecc", ecc}});
+  char name[32];
+  std::snprintf(name, sizeof name, "orbit-e%.1f", ecc);
+  p.name = name;
+  p.description = "relative motion about an orbit of eccentricity " + std::string(name + 7) + ", one revolution";
+  return p;
+}
+
+/// x'' = -(K0 + sin(w t) K1) x - C x' as a first-order A(t) = [[0, I], [-K(t), -C]] over
+/// [0, 10]; velocities measured in units of VELOCITY_SCALE (per state) for the error.
+Problem second_order_problem(const std::string& name, const std::string& description, const MatrixXd& k0,
+                             const MatrixXd& k1, double w, const MatrixXd& c, const VectorXd& velocity_scale) {
+  const Eigen::Index m = k0.rows();
+  std::vector<std::string> names;
+  for (Eigen::Index i = 0; i < m; ++i) names.push_back("q" + std::to_string(i + 1));
+  for (Eigen::Index i = 0; i < m; ++i) names.push_back("v" + std::to_string(i + 1));
+  auto sys = std::make_unique<ordex::FunctionSystem>(names, name);
+  sys->set_A([k0, k1, w, c, m](double t, ordex::MatrixRef out) {
+    out.setZero();
+    out.topRightCorner(m, m).setIdentity();
+    out.bottomLeftCorner(m, m) = -(k0 + std::sin(w * t) * k1);
+    out.bottomRightCorner(m, m) = -c;
+  });
+  Problem p;
+  p.name = name;
+  p.description = description;
+  p.system = std::move(sys);
+  p.t0 = 0;
+  p.t1 = 10;
+  p.scale = VectorXd::Ones(2 * m);
+  p.scale.tail(m) = velocity_scale;
+  return p;
+}
+
+/// Ten oscillators with natural frequencies 3 to 30 rad/s (3 k rad/s), 1 % damping, each
+/// coupled by a weak spring to the next, stiffnesses pumped by 10 % at 0.7 rad/s; t in [0, 10].
+Problem bank_problem() {
+  const int m = 10;
+  MatrixXd k0 = MatrixXd::Zero(m, m), c = MatrixXd::Zero(m, m);
+  for (int i = 0; i < m; ++i) {
+    const double w = 3.0 * (i + 1);
+    k0(i, i) = w * w;
+    c(i, i) = 2 * 0.01 * w;
+  }
+  for (int i = 0; i + 1 < m; ++i) {  // coupling springs of stiffness 2 (rad/s)^2
+    k0(i, i) += 2;
+    k0(i + 1, i + 1) += 2;
+    k0(i, i + 1) -= 2;
+    k0(i + 1, i) -= 2;
+  }
+  // Velocities in units of each oscillator's frequency.
+  return second_order_problem("bank", "ten coupled oscillators, 3 to 30 rad/s, pumped 10 %, t in [0, 10]", k0,
+                              0.1 * k0, 0.7, c, VectorXd::LinSpaced(m, 3.0, 3.0 * m));
+}
+
+/// A lightly damped chain of 20 unit masses between two walls (n = 40), springs of stiffness
+/// 100 (frequencies up to about 20 rad/s) pumped by 20 % at 0.3 rad/s, damping 0.5 % of
+/// critical for the stiffest mode; t in [0, 10].
+Problem chain_problem() {
+  const int m = 20;
+  MatrixXd k0 = MatrixXd::Zero(m, m);
+  for (int i = 0; i < m; ++i) {
+    k0(i, i) = 200;
+    if (i + 1 < m) k0(i, i + 1) = k0(i + 1, i) = -100;
+  }
+  MatrixXd c = 0.005 * 2 * 20 * MatrixXd::Identity(m, m);
+  // Velocities in units of a typical frequency, 10 rad/s.
+  return second_order_problem("chain40", "20-mass lightly damped spring chain (n = 40), pumped 20 %, t in [0, 10]",
+                              k0, 0.2 * k0, 0.3, c, VectorXd::Constant(m, 10.0));
 }
 
 Problem mathieu_problem(double periods) {
@@ -276,6 +357,7 @@ Result engine_transition(const System& sys, const std::string& method, double t0
   o.method = ordex::parse_method(method);
   o.rtol = rtol;
   o.atol = atol;
+  o.use_period = false;  // one long run, as the baseline must do (no Floquet shortcut)
   ordex::Propagator prop(ordex::state_generator(sys), o);
   Result r;
   r.phi = prop.transition(t0, t1);
@@ -665,7 +747,7 @@ int run(int argc, char** argv) {
   desc.add_options()
       ("quick", po::bool_switch(&o.quick), "a small smoke run (seconds) instead of the full one (a few minutes)")
       ("problems", po::value(&o.problems)->value_name("LIST")->default_value(o.problems),
-       "comma-separated subset of orbit, mathieu, random")
+       "comma-separated subset of orbit, eccentric, mathieu, random, bank, chain")
       ("methods", po::value(&o.methods)->value_name("LIST")->default_value(o.methods),
        "comma-separated subset of magnus4, magnus6, adams, bdf, rkf78 (rkf78 always runs)")
       ("target", po::value(&o.target)->value_name("E")->default_value(o.target),
@@ -705,6 +787,20 @@ int run(int argc, char** argv) {
   };
   if (o.wants("orbit")) {
     Problem p = orbit_problem();
+    record(p, run_search(p, o));
+  }
+  if (o.wants("eccentric")) {
+    for (double ecc : {0.3, 0.6}) {
+      Problem p = eccentric_orbit_problem(ecc);
+      record(p, run_search(p, o));
+    }
+  }
+  if (o.wants("bank")) {
+    Problem p = bank_problem();
+    record(p, run_search(p, o));
+  }
+  if (o.wants("chain")) {
+    Problem p = chain_problem();
     record(p, run_search(p, o));
   }
   if (o.wants("mathieu")) {

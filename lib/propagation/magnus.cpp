@@ -82,10 +82,11 @@ class MagnusStepper : public StepperBase {
       }
       if (o_.max_step > 0) h = std::min(h, o_.max_step);
       if (h < 64 * std::numeric_limits<double>::epsilon() * std::max(1.0, std::abs(t))) {
+        // The model's own diagnosis (an entry that is not finite or blows up just ahead) leads.
         if (!last_trial_finite_)
-          throw NumericalError(g_.label + ": transition matrix is not finite at t = " + format_number(t) +
-                               " (steps rejected down to underflow)");
-        throw NumericalError(g_.label + ": step size underflow at t = " + format_number(t));
+          throw NumericalError(with_diagnosis(g_, t, dir, g_.label + ": transition matrix is not finite at t = " +
+                                                              format_number(t) + " (steps rejected down to underflow)"));
+        throw NumericalError(with_diagnosis(g_, t, dir, g_.label + ": step size underflow at t = " + format_number(t)));
       }
       ++trials_here;
       if (trials_here > o_.max_steps)
@@ -115,7 +116,7 @@ class MagnusStepper : public StepperBase {
     ++stats.evaluations;
     double nrm = norm_inf(a1_);
     if (!std::isfinite(nrm))
-      throw NumericalError(g_.label + " is not finite at t = " + format_number(a));
+      throw NumericalError(with_diagnosis(g_, a, span >= 0 ? 1.0 : -1.0, g_.label + " is not finite at t = " + format_number(a)));
     double h = nrm > 0 ? 0.5 * std::pow(o_.rtol, 1.0 / (order_ + 1)) / nrm : span;
     return std::min(h, span);
   }
@@ -153,8 +154,10 @@ class MagnusStepper : public StepperBase {
 
   /// Throws when G itself is not finite at a node: that is the model's failure, which no
   /// shorter step can cure.
-  void require_finite_generator(const Eigen::MatrixXd& m, double t) const {
-    if (!m.allFinite()) throw NumericalError(g_.label + " is not finite at t = " + format_number(t));
+  void require_finite_generator(const Eigen::MatrixXd& m, double t, double h) const {
+    if (!m.allFinite())
+      throw NumericalError(with_diagnosis(g_, t, h >= 0 ? 1.0 : -1.0,
+                                          g_.label + " is not finite at t = " + format_number(t)));
   }
 
   /// S = exp(Omega) for the step from t of signed length h. Returns false when Omega or S
@@ -165,8 +168,8 @@ class MagnusStepper : public StepperBase {
       g_.eval(t + (0.5 - d) * h, a1_);
       g_.eval(t + (0.5 + d) * h, a2_);
       stats.evaluations += 2;
-      require_finite_generator(a1_, t + (0.5 - d) * h);
-      require_finite_generator(a2_, t + (0.5 + d) * h);
+      require_finite_generator(a1_, t + (0.5 - d) * h, h);
+      require_finite_generator(a2_, t + (0.5 + d) * h, h);
       // Omega = h/2 (A1 + A2) + sqrt(3) h^2 / 12 [A2, A1]
       omega_ = (0.5 * h) * (a1_ + a2_);
       c1_.noalias() = a2_ * a1_;
@@ -178,9 +181,9 @@ class MagnusStepper : public StepperBase {
       g_.eval(t + 0.5 * h, a2_);
       g_.eval(t + (0.5 + d) * h, a3_);
       stats.evaluations += 3;
-      require_finite_generator(a1_, t + (0.5 - d) * h);
-      require_finite_generator(a2_, t + 0.5 * h);
-      require_finite_generator(a3_, t + (0.5 + d) * h);
+      require_finite_generator(a1_, t + (0.5 - d) * h, h);
+      require_finite_generator(a2_, t + 0.5 * h, h);
+      require_finite_generator(a3_, t + (0.5 + d) * h, h);
       // alpha1 = h A2, alpha2 = sqrt(15) h / 3 (A3 - A1), alpha3 = 10 h / 3 (A3 - 2 A2 + A1)
       // C1 = [alpha1, alpha2], C2 = -1/60 [alpha1, 2 alpha3 + C1]
       // Omega = alpha1 + alpha3 / 12 + 1/240 [-20 alpha1 - alpha3 + C1, alpha2 + C2]

@@ -28,9 +28,10 @@ TEST(NumbersSwitching, NonSmoothConstructsYieldTheirSwitchingFunctions) {
   EXPECT_EQ(f[2].text, "(t)-(2*t - 1)");
   EXPECT_EQ(f[4].text, "(2*t - 1)-(3)");
   f = switching_functions("(sin(3*t) >= 0) * 4 + (t && 2)", "m: k");
-  ASSERT_EQ(f.size(), 2u);
+  ASSERT_EQ(f.size(), 3u);  // the comparison, and both operands of && tested against zero
   EXPECT_EQ(f[0].text, "(sin(3*t))-(0)");
   EXPECT_EQ(f[1].kind, SwitchKind::Nonzero);
+  EXPECT_EQ(f[1].text, "t");
   EXPECT_TRUE(switching_functions("sin(t)^2 - -3*exp(-t)", "m: k").empty());
 }
 

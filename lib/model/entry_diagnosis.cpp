@@ -35,7 +35,7 @@ std::string diagnose_entry_values(const std::vector<std::string>& names, const E
   const double dir = direction < 0 ? -1.0 : 1.0;
   const double s = std::max(1.0, std::abs(t));
   std::vector<double> probes;
-  for (double d = 1e-15 * s; d <= 0.05 * s; d *= 2) probes.push_back(d);
+  for (double d = 1e-15 * s; d <= 0.125 * s; d *= 2) probes.push_back(d);
   // Per entry, the probe where it is largest relative to its value at t.
   std::vector<double> best_ratio(m, 0.0);
   std::vector<std::size_t> best_probe(m, 0);

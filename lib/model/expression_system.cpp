@@ -390,11 +390,17 @@ std::vector<double> ExpressionSystem::switching_times(double a, double b, std::v
                          std::to_string(kMaxSwitchingTimes) + " times in the window: not all switching times are located");
       roots.resize(kMaxSwitchingTimes);
     }
-    for (double r : roots)
-      if (r > a && r < b) found.push_back(r);
+    for (double r : roots) found.push_back(r);
   }
+  // A function that is exactly zero at a double changes level twice there (-1 -> 0 -> 1): one
+  // switching time. Times within a few units in the last place of each other, or of the window's
+  // ends, are one.
+  auto close = [](double x, double y) { return std::abs(x - y) <= 1e-13 * std::max(1.0, std::abs(x)); };
   std::sort(found.begin(), found.end());
-  found.erase(std::unique(found.begin(), found.end()), found.end());
+  found.erase(std::unique(found.begin(), found.end(), close), found.end());
+  found.erase(std::remove_if(found.begin(), found.end(),
+                             [&](double r) { return !(r > a && r < b) || close(r, a) || close(r, b); }),
+              found.end());
   return found;
 }
 

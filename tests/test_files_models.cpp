@@ -82,6 +82,22 @@ TEST(ModelFiles, HugeExpressionsAndNamesAreQuotedShort) {
   EXPECT_NE(m.find("unknown symbol"), std::string::npos) << m.substr(0, 500);
 }
 
+TEST(ModelFiles, FuzzFindingsEndInAnInputError) {
+  // Inputs the model and weights fuzz targets found to stop a TOML parser built with its
+  // assertions (a table header opening on a comment character; a non-ASCII letter inside a
+  // number): each must end in one clear InputError naming the file and line.
+  const std::string header = write("fuzz_header.toml", "[#x]\n[system]\nstates = [\"x\"]\n");
+  std::string m = load_error(header);
+  EXPECT_NE(m.find(header + ":1:"), std::string::npos) << m;
+  const std::string number = write("fuzz_number.toml", "# q\nR = [0.\xC9\xA2\n");
+  try {
+    ordex::load_weights(number, 1, 1);
+    FAIL() << "accepted";
+  } catch (const InputError& e) {
+    EXPECT_NE(std::string(e.what()).find(number + ":2:"), std::string::npos) << e.what();
+  }
+}
+
 TEST(ModelWindow, SingularAtZeroIsCheckedOnTheWindowInForce) {
   // x' = -x / t (and log t): infinite at t = 0, fine on [1, 10].
   const std::string path = write("inverse_t.toml",

@@ -1,18 +1,11 @@
 // ordex-propagate: the transition matrix Phi(t, t0) of a model over a window, with its error
-// estimate, the Liouville check and, for a periodic model, Floquet analysis.
+// estimate, the Liouville check and, for a periodic model, Floquet analysis (the propagate job).
+#include <algorithm>
 #include <cmath>
-#include <iomanip>
-#include <filesystem>
 #include <iostream>
-#include <set>
-#include <memory>
 
 #include "common/front_end.hpp"
-#include "io/csv.hpp"
 #include "io/errors.hpp"
-#include "io/json.hpp"
-#include "io/output_file.hpp"
-#include "propagation/floquet.hpp"
 #include "propagation/propagate_report.hpp"
 
 using namespace ordex;
@@ -33,53 +26,37 @@ int main(int argc, char** argv) {
                             "With --floquet (a model with a period) it propagates one period from t0 and "
                             "reports the monodromy matrix, the Floquet multipliers and exponents, and "
                             "whether the system is asymptotically stable.\n"
-                            "--csv writes t,phi_1_1,...,phi_n_n (row-major) at the --samples times.\n"
+                            "--csv writes t,phi_1_1,...,phi_n_n (row-major) at the --samples times, each "
+                            "row as it is computed.\n"
                             "Exit status: 0 done, 2 bad input, 3 numerical failure."))
       return 0;
-    check_output_paths({common.json, common.csv});
-    PropagateRequest req;
-    req.floquet = floquet;
     AppSetup setup = setup_from_common(common, /*need_window=*/!floquet);
-    if (floquet) {
-      const SystemInfo& info = setup.system->info();
-      if (!info.period)
-        throw InputError(common.model + ": --floquet needs system.period in the model");
-      if (common.from.empty() && !info.window) setup.t0 = 0;
-      double t1 = setup.t0 + *info.period;
-      if (!common.to.empty() && std::abs(setup.t1 - t1) > 1e-9 * std::max(1.0, std::abs(t1)))
-        throw InputError("--to: with --floquet the window is one period from t0 (t1 = " +
-                         format_number(t1) + ")");
-      setup.t1 = t1;
-      setup.samples = linspace(setup.t0, setup.t1, common.samples);
-    }
+    const System& sys = *setup.system;
+    check_output_paths({common.json, common.csv}, run_inputs(sys));
+    PropagateOptions options;
+    options.propagation = setup.propagation;
+    options.propagation.progress = progress_reporter("ordex-propagate");
+    options.floquet = floquet;
     // Without --csv only Phi(t1, t0) is wanted: no grid, so steps need not stop at samples.
-    if (common.csv.empty()) setup.samples = {setup.t1};
-    setup.propagation.progress = terminal_progress("ordex-propagate");
-    // Both outputs are opened (as temporaries) before the work and committed together at the end.
-    std::unique_ptr<OutputFile> json_out;
-    if (!common.json.empty() && common.json != "-") json_out = std::make_unique<OutputFile>(common.json);
-    PropagateReport rep = propagate_model(*setup.system, setup.t0, setup.t1, setup.samples,
-                                          setup.propagation, req);
-    if (!common.csv.empty()) {
-      const int n = setup.system->states();
-      CsvWriter csv(common.csv, [&] {
-        std::vector<std::string> h{"t"};
-        for (auto& c : matrix_column_names("phi", n, n)) h.push_back(c);
-        return h;
-      }());
-      for (std::size_t k = 0; k < rep.sample_times.size(); ++k) {
-        std::vector<double> row{rep.sample_times[k]};
-        append_row_major(row, rep.sample_phi[k]);
-        csv.row(row);
-      }
-      if (json_out) json_out->stream() << propagate_report_json(*setup.system, rep).dump(2) << "\n";
-      csv.commit();
-    } else if (json_out) {
-      json_out->stream() << propagate_report_json(*setup.system, rep).dump(2) << "\n";
+    options.samples = common.csv.empty() ? 0 : common.samples;
+    if (floquet) {
+      if (common.from.empty() && !sys.info().window) setup.t0 = 0;
+      const double t1 = floquet_window_end(sys, setup.t0);
+      if (!common.to.empty() && std::abs(setup.t1 - t1) > 1e-9 * std::max(1.0, std::abs(t1)))
+        throw InputError("--to: with --floquet the window is one period from t0 (t1 = " + format_number(t1) + ")");
+      setup.t1 = t1;
     }
-    if (json_out) json_out->commit();
-    if (common.json == "-") write_json_file(common.json, propagate_report_json(*setup.system, rep));
-    if (report_to_stdout(common)) print_propagate_report(std::cout, *setup.system, rep);
+    // Outputs are opened (as temporaries) before the work; the CSV receives each sample as it
+    // is computed, and both are put in place together at the end.
+    SummaryOutput json(common.json);
+    std::unique_ptr<CsvWriter> csv = open_matrix_csv(common.csv, "phi", sys.states(), sys.states());
+    PhiSink sink;
+    if (csv) sink = [&](std::size_t, double t, const Eigen::MatrixXd& phi) { write_matrix_row(*csv, t, phi); };
+    const PropagateReport report = propagate(sys, setup.t0, setup.t1, options, sink);
+    json.write(with_app("ordex-propagate", report.to_json()));
+    if (csv) csv->commit();
+    json.commit();
+    if (report_to_stdout(common)) std::cout << report.brief();
     return 0;
-  });
+  }, {{"PropagateOptions::samples", "--samples"}, {"PropagateOptions::floquet", "--floquet"}});
 }

@@ -1,6 +1,8 @@
 #include "common/front_end.hpp"
 
+#include <algorithm>
 #include <chrono>
+#include <iomanip>
 #include <filesystem>
 #include <set>
 #include <cmath>
@@ -9,6 +11,8 @@
 #include <unistd.h>
 
 #include "io/errors.hpp"
+#include "io/json.hpp"
+#include "io/output_file.hpp"
 #include "model/model_file.hpp"
 
 namespace ordex {
@@ -18,22 +22,62 @@ const char* const kHardwareCaution =
     "margins, and have them reviewed by qualified engineers under the applicable codes and "
     "standards before they drive real hardware.";
 
-int run_app(const std::string& app, const std::function<int()>& body) {
+namespace {
+
+/// True while a progress bar occupies the terminal's last line (an error then starts a new one).
+bool g_bar_open = false;
+
+void end_progress_line() {
+  if (g_bar_open) std::cerr << "\n";
+  g_bar_open = false;
+}
+
+void replace_all(std::string& text, const std::string& from, const std::string& to) {
+  for (std::size_t at = text.find(from); at != std::string::npos; at = text.find(from, at + to.size()))
+    text.replace(at, from.size(), to);
+}
+
+}  // namespace
+
+std::string with_flag_names(std::string text, const FlagNames& flags) {
+  FlagNames all = flags;
+  all.push_back({"PropagationOptions::method", "--method"});
+  all.push_back({"PropagationOptions::rtol", "--rtol"});
+  all.push_back({"PropagationOptions::atol", "--atol"});
+  // Longer fields first, so that "X::scaling.units" is not caught by "X::scaling".
+  std::stable_sort(all.begin(), all.end(),
+                   [](const auto& a, const auto& b) { return a.first.size() > b.first.size(); });
+  for (const auto& [field, flag] : all) {
+    replace_all(text, field + " = ", flag + ": ");
+    replace_all(text, field, flag);
+  }
+  return text;
+}
+
+int run_app(const std::string& app, const std::function<int()>& body, const FlagNames& flags) {
   try {
     return body();
   } catch (const InputError& e) {
-    std::cerr << app << ": error: " << e.what() << std::endl;
+    end_progress_line();
+    std::cerr << app << ": error: " << with_flag_names(e.what(), flags) << std::endl;
+    return kExitInput;
+  } catch (const std::filesystem::filesystem_error& e) {
+    // A path that cannot be used at all (name too long, a loop of links) is bad input.
+    end_progress_line();
+    std::cerr << app << ": error: " << utf8_escaped(e.path1().string()) << ": " << e.code().message() << std::endl;
     return kExitInput;
   } catch (const po::error& e) {
     std::cerr << app << ": error: " << e.what() << " (see --help)" << std::endl;
     return kExitInput;
   } catch (const NumericalError& e) {
+    end_progress_line();
     std::cerr << app << ": error: " << e.what() << std::endl;
     return kExitNumerical;
   } catch (const std::bad_alloc&) {
     std::cerr << app << ": error: out of memory" << std::endl;
     return kExitNumerical;
   } catch (const std::exception& e) {
+    end_progress_line();
     std::cerr << app << ": error: " << e.what() << std::endl;
     return kExitNumerical;
   } catch (...) {
@@ -133,22 +177,48 @@ AppSetup setup_from_common(const CommonOptions& c, bool need_window) {
   return s;
 }
 
-void check_output_paths(const std::vector<std::string>& paths) {
-  int to_stdout = 0;
-  std::set<std::string> seen;
-  for (const std::string& out : paths) {
-    if (out.empty()) continue;
-    if (out == "-") {
-      if (++to_stdout > 1)
-        throw InputError("'-' (standard output) given to two outputs; at most one can use it");
-      continue;
-    }
-    if (std::filesystem::is_directory(out)) throw InputError(out + ": is a folder, not an output file");
-    std::error_code ec;
-    const std::string key = std::filesystem::weakly_canonical(out, ec).string();
-    if (!seen.insert(ec ? out : key).second)
-      throw InputError(out + ": named by two outputs; give each output its own file");
-  }
+void check_output_paths(const std::vector<std::string>& outputs, const std::vector<std::string>& inputs) {
+  check_outputs(outputs, inputs);
+}
+
+SummaryOutput::SummaryOutput(const std::string& path) {
+  if (!path.empty()) file_ = std::make_unique<OutputFile>(path);
+}
+
+void SummaryOutput::write(const Json& summary) {
+  if (file_) file_->stream() << dump_json(summary) << "\n";
+}
+
+void SummaryOutput::commit() {
+  if (file_) file_->commit();
+}
+
+std::unique_ptr<CsvWriter> open_matrix_csv(const std::string& path, const std::string& prefix, int rows, int cols) {
+  if (path.empty()) return nullptr;
+  std::vector<std::string> header = matrix_column_names(prefix, rows, cols);
+  header.insert(header.begin(), "t");
+  return std::make_unique<CsvWriter>(path, header);
+}
+
+void write_matrix_row(CsvWriter& csv, double t, const Eigen::MatrixXd& m) {
+  std::vector<double> row;
+  row.reserve(static_cast<std::size_t>(m.size()) + 1);
+  row.push_back(t);
+  append_row_major(row, m);
+  csv.row(row);
+}
+
+std::vector<std::string> run_inputs(const System& sys, const std::vector<std::string>& extra) {
+  std::vector<std::string> files = sys.info().files_read;
+  for (const std::string& f : extra)
+    if (!f.empty()) files.push_back(f);
+  return files;
+}
+
+void require_forward_window(const AppSetup& s) {
+  if (!(s.t1 > s.t0))
+    throw InputError("--from/--to: the window must run forward, t1 > t0 (got [" + format_number(s.t0) + ", " +
+                     format_number(s.t1) + "])");
 }
 
 Eigen::VectorXd parse_vector(const std::string& text, int expected, const std::string& option,
@@ -165,16 +235,44 @@ Eigen::VectorXd parse_vector(const std::string& text, int expected, const std::s
   return Eigen::Map<Eigen::VectorXd>(v.data(), static_cast<Eigen::Index>(v.size()));
 }
 
-std::function<void(double)> terminal_progress(const std::string& app) {
-  if (!::isatty(STDERR_FILENO)) return {};
-  auto last = std::make_shared<std::chrono::steady_clock::time_point>(std::chrono::steady_clock::now());
-  auto start = *last;
-  return [app, last, start](double fraction) {
-    auto now = std::chrono::steady_clock::now();
-    if (now - start < std::chrono::seconds(1) || now - *last < std::chrono::milliseconds(500)) return;
-    *last = now;
-    std::cerr << "\r" << app << ": " << static_cast<int>(std::floor(100 * fraction)) << "%   " << std::flush;
-    if (fraction >= 1.0) std::cerr << "\n";
+std::function<void(double)> progress_reporter(const std::string& app) {
+  return progress_reporter(app, std::cerr, ::isatty(STDERR_FILENO) != 0, 5.0);
+}
+
+std::function<void(double)> progress_reporter(const std::string& app, std::ostream& out, bool terminal, double every) {
+  using Clock = std::chrono::steady_clock;
+  struct State {
+    Clock::time_point start = Clock::now(), last;
+    bool shown = false;
+  };
+  auto st = std::make_shared<State>();
+  const bool to_stderr = &out == &std::cerr;
+  return [app, st, &out, terminal, every, to_stderr](double fraction) {
+    const Clock::time_point now = Clock::now();
+    const double f = std::min(std::max(std::isfinite(fraction) ? fraction : 0.0, 0.0), 1.0);
+    const double elapsed = std::chrono::duration<double>(now - st->start).count();
+    const double since_last = std::chrono::duration<double>(now - st->last).count();
+    const int percent = static_cast<int>(std::floor(100 * f));
+    if (terminal) {
+      const bool done = f >= 1.0;
+      if (elapsed < every / 5 || (!done && st->shown && since_last < every / 25)) return;
+      if (done && !st->shown) return;  // a run that ends before the bar would start shows nothing
+      st->last = now;
+      constexpr int kWidth = 30;
+      const int filled = static_cast<int>(f * kWidth);
+      out << "\r" << app << " [" << std::string(static_cast<std::size_t>(filled), '#')
+          << std::string(static_cast<std::size_t>(kWidth - filled), '.') << "] " << std::setw(3) << percent << "%  "
+          << static_cast<long>(elapsed) << " s " << std::flush;
+      st->shown = true;
+      if (to_stderr) g_bar_open = !done;
+      if (done) out << "\n" << std::flush;
+      return;
+    }
+    // Off a terminal (a log, a pipe): a plain line every few seconds, nothing for short runs.
+    if (elapsed < every || (st->shown && since_last < every)) return;
+    st->last = now;
+    st->shown = true;
+    out << app << ": " << percent << "% after " << static_cast<long>(elapsed) << " s" << std::endl;
   };
 }
 

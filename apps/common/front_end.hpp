@@ -15,6 +15,9 @@
 #include <string>
 #include <vector>
 
+#include "io/csv.hpp"
+#include "io/json.hpp"
+#include "io/output_file.hpp"
 #include "model/system.hpp"
 #include "model/time_grid.hpp"
 #include "propagation/options.hpp"
@@ -23,10 +26,20 @@ namespace ordex {
 
 namespace po = boost::program_options;
 
-/// Runs BODY; InputError and option-parsing errors print "APP: error: WHAT" and return 2,
-/// NumericalError returns 3, anything else returns 3 with its message. Never lets an
+/// Library field names and the app's flags for them, e.g. {"GramianJobOptions::rank_tol",
+/// "--rank-tol"}: the library's messages name Options fields, the user typed flags.
+using FlagNames = std::vector<std::pair<std::string, std::string>>;
+
+/// TEXT with every field of FLAGS (and PropagationOptions::method, rtol, atol, which every app
+/// takes as --method, --rtol, --atol) replaced by its flag: "Struct::field = V is ..." becomes
+/// "--flag: V is ...", any other mention of the field the flag itself.
+std::string with_flag_names(std::string text, const FlagNames& flags = {});
+
+/// Runs BODY; InputError and option-parsing errors print "APP: error: WHAT" (fields translated
+/// to flags by with_flag_names) and return 2, as do filesystem errors (a path that cannot be
+/// used); NumericalError returns 3, anything else returns 3 with its message. Never lets an
 /// exception escape.
-int run_app(const std::string& app, const std::function<int()>& body);
+int run_app(const std::string& app, const std::function<int()>& body, const FlagNames& flags = {});
 
 /// The options of CONTRACT.md "Options every app takes", as parsed text.
 struct CommonOptions {
@@ -53,10 +66,34 @@ bool parse_command_line(int argc, char** argv, const po::options_description& de
                         po::variables_map& vm, const std::string& app, const std::string& usage,
                         const std::string& about);
 
-/// Checks the output paths before any work: none is an existing folder, no two name the same
-/// file (they would share one temporary and clobber each other), and at most one is "-"
-/// (standard output). Empty entries are outputs not asked for. Throws InputError.
-void check_output_paths(const std::vector<std::string>& paths);
+/// The one output check of every app, before any work: the outputs against each other and
+/// against the run's INPUTS (check_outputs in io/output_file.hpp: no output names an input, two
+/// outputs never name one file, no output is a folder, at most one is "-"). Empty entries are
+/// outputs (inputs) not asked for. Throws InputError.
+void check_output_paths(const std::vector<std::string>& outputs, const std::vector<std::string>& inputs = {});
+
+/// The input files of a run: every file SYS was read from (the model file, its tables' CSV
+/// files) followed by EXTRA (--input, --weights, --times, ...; empty entries skipped).
+std::vector<std::string> run_inputs(const System& sys, const std::vector<std::string>& extra = {});
+
+/// The --json summary: opened (as a temporary) before the work, so that an unwritable path
+/// fails first; write() writes the summary, commit() puts it in place (OutputFile: "-" is
+/// standard output, a write error is an error). An empty path writes nothing.
+class SummaryOutput {
+ public:
+  explicit SummaryOutput(const std::string& path);
+  void write(const Json& summary);
+  void commit();
+
+ private:
+  std::unique_ptr<OutputFile> file_;
+};
+
+/// A CSV at PATH with the header "t,PREFIX_1_1,...,PREFIX_R_C" (row-major, 1-based) for a
+/// matrix time series; null when PATH is empty.
+std::unique_ptr<CsvWriter> open_matrix_csv(const std::string& path, const std::string& prefix, int rows, int cols);
+/// Appends the row t, M (row-major) to CSV.
+void write_matrix_row(CsvWriter& csv, double t, const Eigen::MatrixXd& m);
 
 /// Whether the short human-readable report goes to standard output: not when --json - or
 /// --csv - already writes machine-readable data there.
@@ -74,14 +111,26 @@ struct AppSetup {
 /// With NEED_WINDOW false a missing window is allowed (t0 = t1 = 0).
 AppSetup setup_from_common(const CommonOptions& c, bool need_window = true);
 
+/// Throws InputError "--from/--to: ..." unless the window of S runs forward (t1 > t0).
+void require_forward_window(const AppSetup& s);
+
 /// Parses a comma-separated vector ("1,0,0.5") of EXPECTED entries (-1: any number).
 /// OPTION names it in messages ("--x0: 3 entries, the model has 4 states").
 Eigen::VectorXd parse_vector(const std::string& text, int expected, const std::string& option,
                              const std::string& what = "states");
 
-/// A progress reporter for long runs: writes "APP: NN%" to standard error now and then when
-/// standard error is a terminal, and nothing otherwise.
-std::function<void(double)> terminal_progress(const std::string& app);
+/// The progress reporter of long runs, called with the fraction done (0 to 1). On a terminal
+/// (standard error) a bar "APP [#####.....]  50%  12 s" redrawn in place, from the first second
+/// on; otherwise one line "APP: 50% after 10 s" every 5 seconds, from the fifth on, so short
+/// runs print nothing. Not thread-safe: call it from one thread.
+std::function<void(double)> progress_reporter(const std::string& app);
+/// The same with its parts given (for tests): OUT instead of standard error, TERMINAL choosing
+/// the bar or the lines, EVERY the seconds between lines (the bar starts after EVERY / 5 and is
+/// redrawn at most every EVERY / 25).
+std::function<void(double)> progress_reporter(const std::string& app, std::ostream& out, bool terminal, double every);
+/// The former name of progress_reporter.
+inline std::function<void(double)> terminal_progress(const std::string& app) { return progress_reporter(app); }
+
 
 /// The caution printed with results that can drive hardware (gains, steering inputs).
 extern const char* const kHardwareCaution;

@@ -22,7 +22,7 @@ GramianKind parse_kind(const std::string& text) {
   if (text == "controllability") return GramianKind::Controllability;
   if (text == "reachability") return GramianKind::Reachability;
   if (text == "observability") return GramianKind::Observability;
-  throw InputError("--kind: unknown kind '" + text +
+  throw InputError("GramianOptions::kind: unknown kind '" + text +
                    "' (choose controllability, reachability or observability)");
 }
 
@@ -31,7 +31,7 @@ std::string route_name(GramianRoute r) { return r == GramianRoute::Block ? "bloc
 GramianRoute parse_route(const std::string& text) {
   if (text == "block") return GramianRoute::Block;
   if (text == "lyapunov") return GramianRoute::Lyapunov;
-  throw InputError("--route: unknown route '" + text + "' (choose block or lyapunov)");
+  throw InputError("GramianOptions::route: unknown route '" + text + "' (choose block or lyapunov)");
 }
 
 Eigen::MatrixXd symmetrized(const Eigen::MatrixXd& w) { return 0.5 * (w + w.transpose()); }
@@ -90,18 +90,35 @@ WeightedPair pair_for_kind(const System& sys, GramianKind kind) {
 
 void GramianOptions::validate() const {
   propagation.validate();
+  if (scaling.mode == ScalingMode::Units && scaling.units.size() == 0)
+    throw InputError("GramianOptions::scaling.units: empty (give one scale per state)");
   if (threads < 1 || threads > 64)
-    throw InputError("--threads: " + std::to_string(threads) + " is outside [1, 64]");
+    throw InputError("GramianOptions::threads = " + std::to_string(threads) + " is outside [1, 64]");
+}
+
+GramianResult gramian_from_sweep(const GramianSweep& sw, GramianKind kind) {
+  GramianResult r;
+  r.kind = kind;
+  r.t0 = sw.times.front();
+  r.t1 = sw.times.back();
+  r.route = route_name(GramianRoute::Block);
+  // Square-root form (spectrum.hpp): positive semidefinite by construction.
+  r.factor = kind == GramianKind::Reachability ? sw.reachability_factor(0, sw.intervals())
+                                               : sw.controllability_factor(0, sw.intervals());
+  r.gramian = r.factor.product();
+  r.stats = sw.stats;
+  return r;
 }
 
 GramianResult compute_gramian(const System& sys, double t0, double t1, const GramianOptions& options,
                               const std::vector<double>& grid) {
   options.validate();
   if (!std::isfinite(t0) || !std::isfinite(t1))
-    throw InputError("Gramian window: --from and --to must be finite");
+    throw InputError("Gramian window [" + format_number(t0) + ", " + format_number(t1) + "] is not finite");
   if (!(t1 > t0))
-    throw InputError("Gramian window: --to (" + format_number(t1) + ") must be after --from (" +
-                     format_number(t0) + ")");
+    throw InputError("Gramian window [" + format_number(t0) + ", " + format_number(t1) +
+                     "]: t1 must be after t0");
+  options.scaling.validate(sys.states());
   GramianResult r;
   r.kind = options.kind;
   r.t0 = t0;
@@ -110,23 +127,18 @@ GramianResult compute_gramian(const System& sys, double t0, double t1, const Gra
   if (options.route == GramianRoute::Block) {
     std::vector<double> times = grid.empty() ? std::vector<double>{t0, t1} : grid;
     if (times.front() != t0 || times.back() != t1)
-      throw InputError("Gramian grid: must run from --from to --to");
-    GramianSweep sw = sweep_gramians(sys, options.kind, times, options.propagation, options.threads);
-    r.gramian = options.kind == GramianKind::Reachability ? sw.compose_reachability(0, sw.intervals())
-                : sw.running_valid_to == 0                  ? sw.cum_ctrl.back()
-                                                            : sw.compose_controllability(0, sw.intervals());
-    r.stats = sw.stats;
+      throw InputError("Gramian grid: must run from t0 to t1");
+    r = gramian_from_sweep(sweep_gramians(sys, options.kind, times, options.propagation, options.threads),
+                           options.kind);
   } else {
     WeightedPair pair = pair_for_kind(sys, options.kind);
-    OdeOptions o;
-    o.scheme = options.propagation.method == Method::Bdf ? OdeScheme::Bdf : OdeScheme::Adams;
-    o.rtol = options.propagation.rtol;
-    o.atol = options.propagation.atol;
-    o.max_steps = options.propagation.max_steps;
+    const OdeOptions o = ode_options(options.propagation, OdeScheme::Adams);
     OdeStats st;
-    r.gramian = symmetrized(
-        lyapunov_gramian(pair, t0, t1, options.kind == GramianKind::Reachability, o, &st));
-    r.stats.method = options.propagation.method == Method::Bdf ? Method::Bdf : Method::Adams;
+    // The ODE's solution need not be semidefinite: its graded factor drops the negative part
+    // and records its size as the route's error (GramianFactor::graded_error).
+    r.factor = psd_factor(lyapunov_gramian(pair, t0, t1, options.kind == GramianKind::Reachability, o, &st));
+    r.gramian = r.factor.product();
+    r.stats.method = method_of(o.scheme);
     r.stats.steps = st.steps;
     r.stats.rejected_steps = st.error_test_failures;
     r.stats.evaluations = st.rhs_evaluations;

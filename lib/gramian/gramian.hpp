@@ -17,6 +17,7 @@
 #include <string>
 #include <vector>
 
+#include "gramian/spectrum.hpp"
 #include "model/system.hpp"
 #include "propagation/options.hpp"
 
@@ -25,13 +26,13 @@ namespace ordex {
 enum class GramianKind { Controllability, Reachability, Observability };
 /// "controllability", "reachability", "observability".
 std::string kind_name(GramianKind k);
-/// Inverse of kind_name; throws InputError "--kind: unknown kind 'x' (choose ...)".
+/// Inverse of kind_name; throws InputError "GramianOptions::kind: unknown kind 'x' (choose ...)".
 GramianKind parse_kind(const std::string& text);
 
 enum class GramianRoute { Block, Lyapunov };
 /// "block", "lyapunov".
 std::string route_name(GramianRoute r);
-/// Inverse of route_name; throws InputError naming --route.
+/// Inverse of route_name; throws InputError naming GramianOptions::route.
 GramianRoute parse_route(const std::string& text);
 
 /// The pair a Gramian integrates: the state matrix a(t) and the weight q(t) (n x n, symmetric
@@ -66,15 +67,19 @@ struct GramianOptions {
   /// Parallel threads for the Block route's grid intervals (each thread its own model copy and
   /// engine); default 2. Must be in [1, 64].
   int threads = 2;
-  /// Throws InputError naming the option when a field is out of range.
+  /// How states are scaled when the rank is judged (spectrum.hpp); default: balanced.
+  StateScaling scaling;
+  /// Throws InputError naming the field ("GramianOptions::threads = 0 is outside [1, 64]").
   void validate() const;
 };
+
 
 /// What one Gramian computation returns.
 struct GramianResult {
   GramianKind kind = GramianKind::Controllability;
   double t0 = 0, t1 = 0;
-  Eigen::MatrixXd gramian;   ///< n x n, symmetric
+  Eigen::MatrixXd gramian;   ///< n x n, symmetric positive semidefinite: factor.L factor.L'
+  GramianFactor factor;      ///< the square-root form W = L L' with its error bounds
   PropagationStats stats;    ///< engine counts (Block) or CVODE steps (Lyapunov, in steps)
   std::string route;         ///< "block" or "lyapunov"
 };
@@ -84,6 +89,12 @@ struct GramianResult {
 /// Throws InputError for a bad window or a model without B (C), NumericalError on failure.
 GramianResult compute_gramian(const System& sys, double t0, double t1, const GramianOptions& options,
                               const std::vector<double>& grid = {});
+
+struct GramianSweep;  // gramian_sweep.hpp
+
+/// The Gramian of KIND over the whole grid of SWEEP (a sweep of KIND's pair), in square-root
+/// form: what compute_gramian's Block route returns, for callers that keep the sweep.
+GramianResult gramian_from_sweep(const GramianSweep& sweep, GramianKind kind);
 
 /// W symmetrized: (W + W') / 2.
 Eigen::MatrixXd symmetrized(const Eigen::MatrixXd& w);

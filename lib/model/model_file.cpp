@@ -441,6 +441,7 @@ std::unique_ptr<System> ModelReader::load(const ParameterOverrides& overrides) {
   read_system();
   read_parameters(overrides);
   SystemInfo& info = spec_.info;
+  info.parameters = spec_.parameters;  // the values in effect, for report headers
   const toml::table& sys = *root_.get("system")->as_table();
   if (const toml::node* p = sys.get("period")) {
     double v = constant_of(*p, "system.period");

@@ -70,4 +70,36 @@ std::string ModelReport::brief() const {
   return o.str();
 }
 
+ReportHeader report_header(const System& sys, double t0, double t1, const std::string& method) {
+  const SystemInfo& info = sys.info();
+  ReportHeader h;
+  h.title = info.title;
+  h.source = info.source;
+  h.parameters = info.parameters;
+  h.t0 = t0;
+  h.t1 = t1;
+  h.method = method;
+  return h;
+}
+
+Json ReportHeader::to_json() const {
+  Json params = Json::object();
+  for (const auto& p : parameters) params[p.first] = number_to_json(p.second);
+  Json j;
+  j["ordex_version"] = ORDEX_VERSION;
+  j["model"] = {{"title", title}, {"source", source}, {"parameters", params}};
+  j["t0"] = number_to_json(t0);
+  j["t1"] = number_to_json(t1);
+  j["method"] = method;
+  return j;
+}
+
+Json with_app(const std::string& app, const Json& summary) {
+  Json j;
+  j["app"] = app;
+  for (auto it = summary.begin(); it != summary.end(); ++it)
+    if (it.key() != "app") j[it.key()] = it.value();
+  return j;
+}
+
 }  // namespace ordex

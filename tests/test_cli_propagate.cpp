@@ -4,6 +4,9 @@
 
 #include <nlohmann/json.hpp>
 #include <sstream>
+#include <vector>
+
+#include "common/front_end.hpp"
 
 #include "support.hpp"
 
@@ -16,6 +19,7 @@ std::string data(const std::string& name) { return std::string(ORDEX_TESTS_DIR) 
 
 void expect_error(const ordex_test::RunResult& r, int code, const std::string& needle) {
   EXPECT_EQ(r.exit_code, code) << r.err;
+  EXPECT_EQ(r.err.find("Options::"), std::string::npos) << r.err;  // flags, not library field names
   EXPECT_EQ(ordex_test::line_count(r.err), 1) << r.err;
   EXPECT_EQ(r.err.rfind("ordex-propagate: error: ", 0), 0u) << r.err;
   EXPECT_NE(r.err.find(needle), std::string::npos) << "expected '" << needle << "' in: " << r.err;
@@ -38,10 +42,18 @@ TEST(CliPropagate, JsonAndCsvFollowTheContract) {
   auto r = run_app("ordex-propagate", "--model " + model_path("mathieu.toml") +
                                           " --set a=2.5 --set q=0.8 --samples 11 --json - --csv " + csv);
   ASSERT_EQ(r.exit_code, 0) << r.err;
-  auto j = nlohmann::json::parse(r.out);  // with --json -, standard output is only the JSON
+  auto j = nlohmann::ordered_json::parse(r.out);  // with --json -, standard output is only the JSON
   for (const char* key : {"app", "t0", "t1", "states", "method", "steps", "matrix_evaluations", "phi",
                           "error_estimate", "liouville"})
     EXPECT_TRUE(j.contains(key)) << key;
+  // The common header first (CONTRACT.md), with the parameters in effect after --set.
+  std::vector<std::string> keys;
+  for (auto it = j.begin(); it != j.end() && keys.size() < 6; ++it) keys.push_back(it.key());
+  EXPECT_EQ(keys, (std::vector<std::string>{"app", "ordex_version", "model", "t0", "t1", "method"}));
+  EXPECT_EQ(j["app"], "ordex-propagate");
+  EXPECT_EQ(j["model"]["title"], "Mathieu equation");
+  EXPECT_EQ(j["model"]["parameters"]["a"].get<double>(), 2.5);
+  EXPECT_EQ(j["model"]["parameters"]["q"].get<double>(), 0.8);
   EXPECT_EQ(j["phi"].size(), 2u);
   EXPECT_EQ(j["phi"][0].size(), 2u);
   EXPECT_NEAR(j["t1"].get<double>(), M_PI, 1e-15);
@@ -85,7 +97,7 @@ TEST(CliPropagate, BadUsageIsExitTwo) {
   expect_error(run_app("ordex-propagate", "--model /nonexistent/m.toml"), 2, "/nonexistent/m.toml");
   expect_error(run_app("ordex-propagate", "--model " + model_path("mathieu.toml") + " --method rk4"), 2, "rk4");
   expect_error(run_app("ordex-propagate", "--model " + model_path("mathieu.toml") + " --set nope=1"), 2, "nope");
-  expect_error(run_app("ordex-propagate", "--model " + model_path("mathieu.toml") + " --rtol 0"), 2, "--rtol");
+  expect_error(run_app("ordex-propagate", "--model " + model_path("mathieu.toml") + " --rtol 0"), 2, "--rtol: 0 is outside");
   expect_error(run_app("ordex-propagate", "--model " + data("cli_no_window.toml")), 2, "window");
   expect_error(run_app("ordex-propagate", "--model " + data("cli_no_window.toml") + " --from 0 --to 1 --floquet"), 2, "period");
   expect_error(run_app("ordex-propagate", "--model " + data("cli_unknown_symbol.toml")), 2, "omeg");
@@ -120,4 +132,75 @@ TEST(CliPropagate, CsvToStandardOutputIsOnlyTheCsv) {
   ASSERT_EQ(r.exit_code, 0) << r.err;
   EXPECT_EQ(ordex_test::line_count(r.out), 4) << r.out;  // header and three rows, no report
   EXPECT_EQ(r.out.rfind("t,phi_1_1", 0), 0u);
+}
+
+TEST(CliPropagate, CsvRowsAreStreamedNotHeld) {
+  // 40 states and 20000 samples: holding the grid would take 20000 * 1600 * 8 bytes = 256 MB;
+  // under a 200 MB address-space limit only a run that writes each row as it is computed
+  // finishes. /dev/null is written directly (a device), so no disk space is needed.
+  const std::string model = ordex_test::temp_dir() + "/chain40.toml";
+  std::string a = "A = [";
+  for (int i = 0; i < 40; ++i) {
+    a += i ? ",\n     [" : "[";
+    for (int j = 0; j < 40; ++j) a += (j ? ", " : "") + std::string(j == (i ^ 1) ? (i % 2 ? "-1" : "1") : "0");
+    a += "]";
+  }
+  std::string states;
+  for (int i = 0; i < 40; ++i) states += (i ? ", \"s" : "\"s") + std::to_string(i + 1) + "\"";
+  ordex_test::write_file(model, "[system]\nstates = [" + states + "]\n[window]\nfrom = 0\nto = 20\n[matrices]\n" + a + "]\n");
+  auto r = ordex_test::run("ulimit -v 200000; " + std::string(ORDEX_BIN_DIR) + "/ordex-propagate --model " + model +
+                           " --samples 20000 --csv /dev/null --json -");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  auto j = nlohmann::json::parse(r.out);
+  // Twenty rotations x' = y, y' = -x: Phi(20, 0) = [[cos 20, sin 20], [-sin 20, cos 20]] per block.
+  EXPECT_NEAR(j["phi"][0][0].get<double>(), std::cos(20.0), 1e-6);
+  EXPECT_NEAR(j["phi"][38][39].get<double>(), std::sin(20.0), 1e-6);
+}
+
+TEST(CliPropagate, FortyStatesPrintABriefReport) {
+  const std::string model = ordex_test::temp_dir() + "/chain40.toml";  // written by the test above
+  if (!ordex_test::file_exists(model)) GTEST_SKIP() << "needs CsvRowsAreStreamedNotHeld";
+  auto r = run_app("ordex-propagate", "--model " + model);
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  EXPECT_LT(ordex_test::line_count(r.out), 16) << r.out;
+  EXPECT_NE(r.out.find("JSON"), std::string::npos) << r.out;
+}
+
+TEST(FrontEnd, FieldNamesBecomeFlags) {
+  EXPECT_EQ(ordex::with_flag_names("PropagationOptions::rtol = 1 is outside [1e-14, 0.1]"),
+            "--rtol: 1 is outside [1e-14, 0.1]");
+  EXPECT_EQ(ordex::with_flag_names("GramianOptions::kind: unknown kind 'x'", {{"GramianOptions::kind", "--kind"}}),
+            "--kind: unknown kind 'x'");
+  // The longer field wins over its prefix.
+  EXPECT_EQ(ordex::with_flag_names("S::scale.units: empty", {{"S::scale", "--scale"}, {"S::scale.units", "--units"}}),
+            "--units: empty");
+  EXPECT_EQ(ordex::with_flag_names("model.toml: A[1][1] is nan"), "model.toml: A[1][1] is nan");
+}
+
+TEST(FrontEnd, ProgressShowsRealFractions) {
+  // Off a terminal: a line every EVERY seconds, none before the first EVERY.
+  std::ostringstream lines;
+  auto p = ordex::progress_reporter("ordex-x", lines, /*terminal=*/false, /*every=*/0.05);
+  p(0.1);  // too early
+  ::usleep(60000);
+  p(0.3);
+  p(0.35);  // too soon after the last line
+  ::usleep(60000);
+  p(0.62);
+  EXPECT_EQ(lines.str().find("10%"), std::string::npos) << lines.str();
+  EXPECT_NE(lines.str().find("ordex-x: 30% after"), std::string::npos) << lines.str();
+  EXPECT_EQ(lines.str().find("35%"), std::string::npos) << lines.str();
+  EXPECT_NE(lines.str().find("ordex-x: 62% after"), std::string::npos) << lines.str();
+  EXPECT_EQ(ordex_test::line_count(lines.str()), 2);
+  // On a terminal: a bar redrawn in place, ending with a newline at 100%.
+  std::ostringstream bar;
+  auto b = ordex::progress_reporter("ordex-x", bar, /*terminal=*/true, /*every=*/0.05);
+  ::usleep(20000);
+  b(0.5);
+  ::usleep(20000);
+  b(1.0);
+  EXPECT_NE(bar.str().find("\rordex-x ["), std::string::npos) << bar.str();
+  EXPECT_NE(bar.str().find(" 50%"), std::string::npos) << bar.str();
+  EXPECT_NE(bar.str().find("100%"), std::string::npos) << bar.str();
+  EXPECT_EQ(bar.str().back(), '\n');
 }

@@ -19,7 +19,7 @@ const std::string kDir = ORDEX_TESTS_DIR "/data/";
 const std::string kCart = "--model " + kDir + "gramian_double_integrator.toml";
 const std::string kOrbit = "--model " + std::string(ORDEX_MODELS_DIR) + "/orbit_relative_motion.toml";
 
-nlohmann::json json_of(const ordex_test::RunResult& r) { return nlohmann::json::parse(r.out); }
+nlohmann::ordered_json json_of(const ordex_test::RunResult& r) { return nlohmann::ordered_json::parse(r.out); }
 
 void expect_input_error(const std::string& args, const std::string& needle, int code = 2) {
   const std::string out = ordex_test::temp_dir() + "/gramian_err.json";
@@ -29,6 +29,7 @@ void expect_input_error(const std::string& args, const std::string& needle, int 
   EXPECT_EQ(line_count(r.err), 1) << r.err;
   EXPECT_EQ(r.err.rfind("ordex-gramian: error:", 0), 0u) << r.err;
   EXPECT_NE(r.err.find(needle), std::string::npos) << "expected '" << needle << "' in: " << r.err;
+  EXPECT_EQ(r.err.find("Options::"), std::string::npos) << r.err;  // flags, not library field names
   EXPECT_FALSE(file_exists(out));
   EXPECT_FALSE(file_exists(csv));
 }
@@ -42,6 +43,12 @@ TEST(GramianApp, JsonHasTheContractKeysAndTheClosedForm) {
     EXPECT_TRUE(j.contains(key)) << key;
   for (const char* key : {"energy", "final_error", "peak_input"}) EXPECT_TRUE(j["transfer"].contains(key)) << key;
   EXPECT_EQ(j["kind"], "reachability");
+  // The common header first (CONTRACT.md): app, version, model with its parameters, window, method.
+  EXPECT_EQ(j.begin().key(), "app");
+  EXPECT_EQ(j["app"], "ordex-gramian");
+  EXPECT_EQ(j["model"]["title"], "Cart on a frictionless rail (test model)");
+  EXPECT_EQ(j["model"]["parameters"]["gain"].get<double>(), 1.0);
+  EXPECT_TRUE(j.contains("ordex_version"));
   // x'' = u over [0, 2]: W_r = [[8/3, 2], [2, 2]], rest-to-rest energy 12/T^3 = 1.5 (closed form).
   EXPECT_NEAR(j["gramian"][0][0].get<double>(), 8.0 / 3, 1e-9);
   EXPECT_NEAR(j["gramian"][0][1].get<double>(), 2.0, 1e-9);
@@ -153,7 +160,9 @@ TEST(GramianApp, BadInputIsExitTwoWithOneLine) {
   expect_input_error(kCart + " --route around", "--route: unknown route");
   expect_input_error(kCart + " --kind observability", "gramian_double_integrator.toml: system.outputs");
   expect_input_error("--model " + kDir + "gramian_no_input.toml", "gramian_no_input.toml: system.inputs");
-  expect_input_error(kCart + " --rank-tol 0", "--rank-tol");
+  expect_input_error(kCart + " --rank-tol 0", "--rank-tol: 0 is outside (0, 1)");
+  expect_input_error(kCart + " --threads 0", "--threads: 0 is outside [1, 64]");
+  expect_input_error(kCart + " --rtol 2", "--rtol: 2 is outside");
   expect_input_error(kCart + " --window-length 3", "--window-length");
   expect_input_error(kCart + " --window-length 1 --stride -1", "--stride");
   expect_input_error(kCart + " --set mass=2", "mass");
@@ -165,3 +174,36 @@ TEST(GramianApp, BadInputIsExitTwoWithOneLine) {
 }
 
 }  // namespace
+
+TEST(GramianApp, RunningGramianCsvAgainstTheClosedForm) {
+  // The running reachability Gramian of p'' = f: W_r(0, t) = [[t^3/3, t^2/2], [t^2/2, t]]
+  // (closed form), one row a sample.
+  const std::string csv = ordex_test::temp_dir() + "/gramian_running.csv";
+  auto r = run_app("ordex-gramian", kCart + " --kind reachability --samples 5 --csv " + csv);
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  std::istringstream in(ordex_test::read_file(csv));
+  std::string line;
+  std::getline(in, line);
+  EXPECT_EQ(line, "t,W_1_1,W_1_2,W_2_1,W_2_2");
+  int rows = 0;
+  while (std::getline(in, line)) {
+    double t, w11, w12, w21, w22;
+    char comma;
+    std::istringstream(line) >> t >> comma >> w11 >> comma >> w12 >> comma >> w21 >> comma >> w22;
+    EXPECT_NEAR(t, 0.5 * rows, 1e-15);
+    EXPECT_NEAR(w11, t * t * t / 3, 1e-9);
+    EXPECT_NEAR(w12, t * t / 2, 1e-9);
+    EXPECT_NEAR(w22, t, 1e-9);
+    ++rows;
+  }
+  EXPECT_EQ(rows, 5);
+}
+
+TEST(GramianApp, AnOutputNamingTheModelIsRefused) {
+  const std::string model = ordex_test::temp_dir() + "/gramian_cart_copy.toml";
+  ordex_test::write_file(model, ordex_test::read_file(kDir + "gramian_double_integrator.toml"));
+  const std::string before = ordex_test::read_file(model);
+  auto r = run_app("ordex-gramian", "--model " + model + " --json " + model);
+  EXPECT_EQ(r.exit_code, 2) << r.err;
+  EXPECT_EQ(ordex_test::read_file(model), before);  // the input is intact
+}

@@ -51,7 +51,7 @@ class CvodeStepper : public StepperBase {
         pa_.diagonal().array() += 1.0;
         lu_.compute(pa_);
         if (!std::isfinite(lu_.rcond()) || lu_.rcond() < 1e-300)
-          throw NumericalError(g_.label + ": singular Newton block at t = " + format_number(t));
+          throw SingularNewtonMatrix(g_.label + ": singular Newton block at t = " + format_number(t));
       };
       p.precond_solve = [this](const double* r, double* z) {
         Eigen::Map<const Eigen::MatrixXd> R(r, n_, n_);
@@ -59,12 +59,8 @@ class CvodeStepper : public StepperBase {
         Z = lu_.solve(R);
       };
     }
-    OdeOptions oo;
-    oo.scheme = stiff ? OdeScheme::Bdf : OdeScheme::Adams;
-    oo.rtol = o.rtol;
-    oo.atol = o.atol;
-    oo.max_steps = o.max_steps;
-    oo.max_step = o.max_step;
+    OdeOptions oo = ode_options(o, stiff ? OdeScheme::Bdf : OdeScheme::Adams);
+    oo.scheme = stiff ? OdeScheme::Bdf : OdeScheme::Adams;  // the Propagator chose the method
     ode_ = std::make_unique<OdeIntegrator>(std::move(p), oo);
   }
 
@@ -95,7 +91,8 @@ class CvodeStepper : public StepperBase {
     ode_->advance(b, X.data());
     OdeStats after = ode_->stats();
     if (!X.allFinite())
-      throw NumericalError(g_.label + ": transition matrix is not finite at t = " + format_number(b));
+      throw NumericalError(with_diagnosis(g_, a, b >= a ? 1.0 : -1.0,
+                                          g_.label + ": transition matrix is not finite at t = " + format_number(b)));
     stats.steps += after.steps - before.steps;
     stats.rejected_steps += after.error_test_failures - before.error_test_failures;
     stats.evaluations += evaluations_ - evals_before;

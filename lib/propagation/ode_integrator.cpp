@@ -111,6 +111,7 @@ struct OdeIntegrator::Impl {
 
   static int rhs(realtype t, N_Vector y, N_Vector ydot, void* data) {
     auto* self = static_cast<Impl*>(data);
+    if (self->pending) return kUnrecoverable;  // a callback failed: never call the problem again
     try {
       self->problem.rhs(self->inside(t), N_VGetArrayPointer(y), N_VGetArrayPointer(ydot));
       const double* d = N_VGetArrayPointer(ydot);
@@ -129,6 +130,7 @@ struct OdeIntegrator::Impl {
   }
   static int jtimes(N_Vector v, N_Vector Jv, realtype t, N_Vector y, N_Vector, void* data, N_Vector) {
     auto* self = static_cast<Impl*>(data);
+    if (self->pending) return kUnrecoverable;  // a callback failed: never call the problem again
     try {
       self->problem.jac_times(self->inside(t), N_VGetArrayPointer(y), N_VGetArrayPointer(v), N_VGetArrayPointer(Jv));
       return 0;
@@ -140,11 +142,12 @@ struct OdeIntegrator::Impl {
   static int psetup(realtype t, N_Vector y, N_Vector, booleantype, booleantype* jcur, realtype gamma,
                     void* data) {
     auto* self = static_cast<Impl*>(data);
+    if (self->pending) return kUnrecoverable;  // a callback failed: never call the problem again
     try {
       self->problem.precond_setup(self->inside(t), N_VGetArrayPointer(y), gamma);
       *jcur = SUNTRUE;
       return 0;
-    } catch (const NumericalError&) {
+    } catch (const SingularNewtonMatrix&) {
       return 1;  // recoverable: a singular block at this gamma, CVODE cuts the step
     } catch (...) {
       self->pending = std::current_exception();
@@ -154,6 +157,7 @@ struct OdeIntegrator::Impl {
   static int psolve(realtype, N_Vector, N_Vector, N_Vector r, N_Vector z, realtype, realtype, int,
                     void* data) {
     auto* self = static_cast<Impl*>(data);
+    if (self->pending) return kUnrecoverable;  // a callback failed: never call the problem again
     try {
       self->problem.precond_solve(N_VGetArrayPointer(r), N_VGetArrayPointer(z));
       return 0;

@@ -19,9 +19,18 @@
 #include <string>
 #include <vector>
 
+#include "io/errors.hpp"
 #include "propagation/options.hpp"
 
 namespace ordex {
+
+/// Thrown by a precond_setup that cannot factor its Newton matrix at this gamma (a singular
+/// block): CVODE then retries with a smaller step. Any other exception from any callback,
+/// including a NumericalError of the model, stops the integration at once.
+class SingularNewtonMatrix : public NumericalError {
+ public:
+  using NumericalError::NumericalError;
+};
 
 struct OdeProblem {
   int size = 0;  ///< number of unknowns

@@ -175,7 +175,7 @@ SimulationResult run_once(const StateSimulation& sim, double t0, const Eigen::Ve
       w->M.diagonal().array() += 1.0;
       w->lu.compute(w->M);
       // Recoverable for CVODE (it cuts the step): a singular block at this gamma.
-      if (!(w->lu.rcond() > 1e-300)) throw NumericalError("singular Newton block");
+      if (!(w->lu.rcond() > 1e-300)) throw SingularNewtonMatrix("singular Newton block");
     };
     p.precond_solve = [w, n, size](const double* r, double* z) {
       Eigen::Map<Eigen::VectorXd>(z, n) = w->lu.solve(Eigen::Map<const Eigen::VectorXd>(r, n));

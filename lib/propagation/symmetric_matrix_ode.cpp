@@ -55,6 +55,7 @@ struct SymmetricMatrixOdeSolver::Impl {
   SchurLyapunovSolver lyapunov;
   Eigen::MatrixXd factored;  // the Fc whose Schur form the solver holds
   long factorizations = 0;
+  bool have_factor = false;  // false until a factorization succeeds (and after one fails)
   bool use_identity = false;
   std::unique_ptr<OdeIntegrator> ode;
   std::vector<double> y;
@@ -128,16 +129,25 @@ struct SymmetricMatrixOdeSolver::Impl {
     closed_loop(t, yv);
     use_identity = std::abs(gamma) * Fc.lpNorm<1>() < kIdentityPreconditionerBelow;
     if (use_identity) return;
-    const double drift = factorizations == 0 ? INFINITY
+    const double drift = !have_factor ? INFINITY
                                              : (Fc - factored).cwiseAbs().maxCoeff() /
                                                    std::max(1e-300, factored.cwiseAbs().maxCoeff());
-    if (drift > kRefactorDrift) {
-      // (I/2 - gamma Fc) V + V (I/2 - gamma Fc)' = M' V + V M with M = I/2 - gamma Fc'.
-      lyapunov.factor(Fc.transpose());
-      factored = Fc;
-      ++factorizations;
+    try {
+      if (drift > kRefactorDrift) {
+        // (I/2 - gamma Fc) V + V (I/2 - gamma Fc)' = M' V + V M with M = I/2 - gamma Fc'.
+        have_factor = false;
+        lyapunov.factor(Fc.transpose());
+        factored = Fc;
+        ++factorizations;
+        have_factor = true;
+      }
+      lyapunov.set_shift(0.5, -gamma);
+    } catch (const NumericalError& e) {
+      // A Schur form that did not converge, or a shift at which the Lyapunov operator is
+      // singular: CVODE retries with a smaller step (the coefficients' own failures above are
+      // not caught and stop the integration).
+      throw SingularNewtonMatrix(e.what());
     }
-    lyapunov.set_shift(0.5, -gamma);
   }
 
   void precond_solve(const double* r, double* z) {

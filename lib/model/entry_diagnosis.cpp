@@ -16,7 +16,7 @@ bool bad(double v) { return !std::isfinite(v) || std::abs(v) > kHugeEntry; }
 std::string verdict(const std::string& name, double v, double t) {
   if (!std::isfinite(v)) return name + " is not finite at t = " + format_number(t);
   return name + " = " + format_number(v) + " at t = " + format_number(t) +
-         " is too large to compute with (beyond " + format_number(kHugeEntry) + ", products of entries overflow)";
+         " is too large to compute with (beyond 1e150, products of entries overflow)";
 }
 
 }  // namespace

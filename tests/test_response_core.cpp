@@ -246,27 +246,31 @@ TEST(ResponseExact, WindowInsideTheSamples) {
   InputHistory h = two_input_history(101, 0.0, 10.0);
   RespondOptions o = tight(Hold::Linear);
   // Full run sampled at 2.345 (inside a sample interval) and at 7.0.
-  o.window = std::make_pair(0.0, 10.0);
+  o.t0 = 0.0;
+  o.t1 = 10.0;
   o.sample_times = {0.0, 2.345, 7.0, 10.0};
   RespondReport full = respond(sys, {h}, o);
   ASSERT_EQ(full.runs[0].times.size(), 4u);
   // Restarting at 2.345 from the state there must land on the same state at 7.0.
   RespondOptions w = tight(Hold::Linear);
-  w.window = std::make_pair(2.345, 7.0);
+  w.t0 = 2.345;
+  w.t1 = 7.0;
   w.x0 = full.runs[0].states.row(1).transpose();
   RespondReport part = respond(sys, {h}, w);
   EXPECT_LT(max_abs(part.runs[0].x_final.transpose() - full.runs[0].states.row(2)), 1e-9);
   EXPECT_DOUBLE_EQ(part.runs[0].times.front(), 2.345);
   // A window beyond the samples is an input error naming the file's last line.
   RespondOptions bad = tight(Hold::Linear);
-  bad.window = std::make_pair(1.0, 11.0);
+  bad.t0 = 1.0;
+  bad.t1 = 11.0;
   EXPECT_THROW(respond(sys, {h}, bad), InputError);
 }
 
 TEST(ResponseExact, FreeResponseMatchesMatrixExponential) {
   std::unique_ptr<System> sys = load_model(kData + "response_free.toml");
   RespondOptions o;
-  o.window = std::make_pair(0.0, 6.0);
+  o.t0 = 0.0;
+  o.t1 = 6.0;
   o.sample_times = {0.0, 1.5, 3.0, 6.0};
   o.x0 = Eigen::Vector2d(1.0, 0.0);
   RespondReport rep = respond(*sys, {free_response_history(0.0, 6.0)}, o);
@@ -331,7 +335,8 @@ TEST(ResponseExact, BreakpointInsideASampleInterval) {
     for (ResponsePath path : {ResponsePath::Exact, ResponsePath::Direct}) {
       RespondOptions o = tight(hold);
       o.path = path;
-      o.window = std::make_pair(0.0, 3.0);
+      o.t0 = 0.0;
+      o.t1 = 3.0;
       o.x0 = Eigen::Vector2d(0.3, 0.0);
       RespondReport rep = respond(*sys, {h}, o);
       EXPECT_LT((rep.runs[0].x_final - ref.head(2)).cwiseAbs().maxCoeff(), 1e-8)

@@ -224,19 +224,19 @@ TEST(RiccatiClosedLoop, SimulatedCostEqualsPredictedCost) {
   // (completing the square in the cost functional).
   auto sys = load_model(std::string(ORDEX_TESTS_DIR) + "/data/riccati_tv.toml");
   Weights w = load_weights(std::string(ORDEX_TESTS_DIR) + "/data/riccati_tv_weights.toml", 2, 1);
-  auto grid = linspace(0.0, 5.0, 101);
   for (RiccatiSolver s : {RiccatiSolver::RiccatiOde, RiccatiSolver::Hamiltonian}) {
     RegulatorOptions o;
+    o.weights = w;
     o.riccati = options_for(s);
     o.x0 = Eigen::Vector2d(1.0, -0.5);
-    RiccatiSolution sol;
-    RegulatorReport r = regulate(*sys, w, grid, o, sol);
-    ASSERT_TRUE(r.run);
-    EXPECT_NEAR(r.run->cost_simulated, r.run->cost_predicted, 1e-8 * r.run->cost_predicted) << solver_name(s);
+    RegulatorReport r = regulate(*sys, 0.0, 5.0, o);
+    ASSERT_TRUE(r.closed_loop.run);
+    const ClosedLoopRun& run = *r.closed_loop.run;
+    EXPECT_NEAR(run.cost_simulated, run.cost_predicted, 1e-8 * run.cost_predicted) << solver_name(s);
     // The engine's closed-loop transition matrix carries x0 to the simulated final state.
-    EXPECT_LT(r.closed_loop_agreement, 1e-7);
+    EXPECT_LT(r.closed_loop.agreement, 1e-7);
     // The cost is not trivially matched: a detuned gain (half of it) costs more.
-    EXPECT_GT(r.run->cost_predicted, 0.1);
+    EXPECT_GT(run.cost_predicted, 0.1);
   }
 }
 

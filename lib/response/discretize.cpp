@@ -7,12 +7,19 @@
 
 #include "io/csv.hpp"
 #include "io/errors.hpp"
+#include "model/time_grid.hpp"
 #include "io/input_file.hpp"
 #include "propagation/stats_json.hpp"
 
 namespace ordex {
 
-void DiscretizeOptions::validate() const { propagation.validate(); }
+void DiscretizeOptions::validate() const {
+  propagation.validate();
+  if (!(step >= 0) || !std::isfinite(step))
+    throw InputError("DiscretizeOptions::step = " + format_number(step) + " must be 0 or a positive number");
+  if (samples < 2 || samples > 10000000)
+    throw InputError("DiscretizeOptions::samples = " + std::to_string(samples) + " is outside [2, 10000000]");
+}
 
 DiscretizeReport discretize(const System& sys, const std::vector<double>& times, const DiscretizeOptions& o) {
   const auto start = std::chrono::steady_clock::now();
@@ -23,7 +30,11 @@ DiscretizeReport discretize(const System& sys, const std::vector<double>& times,
     if (k > 0 && !(times[k] > times[k - 1]))
       throw InputError("discretize: grid times must be strictly increasing (time " + std::to_string(k + 1) + ")");
   }
+  sys.require_defined_on(times.front(), times.back(), "discretize: the grid [" + format_number(times.front()) +
+                         ", " + format_number(times.back()) + "]");
   DiscretizeReport rep;
+  rep.states = sys.info().state_names;
+  rep.inputs = sys.info().input_names;
   StepMatrixBuilder builder(sys, o.hold, o.propagation, o.reuse_time_invariant);
   rep.model.hold = o.hold;
   rep.model.states = sys.states();
@@ -35,15 +46,26 @@ DiscretizeReport discretize(const System& sys, const std::vector<double>& times,
   rep.computed_steps = builder.computed_steps();
   rep.reused_steps = builder.reused_steps();
   rep.time_invariant = builder.time_invariant();
+  rep.header = report_header(sys, times.front(), times.back(), method_name(rep.method));
   rep.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
   return rep;
 }
 
+DiscretizeReport discretize(const System& sys, double t0, double t1, const DiscretizeOptions& o) {
+  o.validate();
+  if (!std::isfinite(t0) || !std::isfinite(t1) || !(t0 < t1))
+    throw InputError("discretize: the window must run forward (from " + format_number(t0) + " to " +
+                     format_number(t1) + ")");
+  return discretize(sys, o.step > 0 ? step_grid(t0, t1, o.step) : linspace(t0, t1, o.samples), o);
+}
+
 std::vector<double> step_grid(double t0, double t1, double h) {
-  if (!(h > 0) || !std::isfinite(h)) throw InputError("--step: must be a positive number");
-  if (!(t0 < t1)) throw InputError("--step: the window must run forward (from " + format_number(t0) + " to " + format_number(t1) + ")");
+  if (!(h > 0) || !std::isfinite(h)) throw InputError("DiscretizeOptions::step = " + format_number(h) + " must be a positive number");
+  if (!(t0 < t1))
+    throw InputError("discretize: the window must run forward (from " + format_number(t0) + " to " + format_number(t1) + ")");
   const double count = (t1 - t0) / h;
-  if (count > 1e7) throw InputError("--step: " + format_number(h) + " gives more than 10^7 intervals in the window");
+  if (count > 1e7)
+    throw InputError("DiscretizeOptions::step = " + format_number(h) + " gives more than 10^7 intervals in the window");
   std::vector<double> t;
   // Times as t0 + k h (not by repeated addition, which drifts).
   for (long k = 0;; ++k) {
@@ -103,21 +125,20 @@ Eigen::MatrixXd simulate_discrete(const DiscreteModel& model, const Eigen::Vecto
   return X;
 }
 
-Json discretize_report_json(const DiscretizeReport& rep, const System& sys) {
+Json DiscretizeReport::to_json() const {
+  const DiscretizeReport& rep = *this;
   const DiscreteModel& m = rep.model;
-  Json j;
-  j["app"] = "ordex-discretize";
+  Json j = header.to_json();
   j["hold"] = hold_name(m.hold);
-  j["method"] = method_name(rep.method);
-  j["states"] = sys.info().state_names;
-  j["inputs"] = sys.info().input_names;
+  j["states"] = states;
+  j["inputs"] = inputs;
   j["intervals"] = m.steps.size();
   j["times"] = vector_to_json(m.times);
   Json phi = Json::array(), g0 = Json::array(), g1 = Json::array();
   for (const StepMatrices& s : m.steps) {
-    phi.push_back(to_json(s.phi));
-    g0.push_back(to_json(s.gamma0));
-    if (m.hold == Hold::Linear) g1.push_back(to_json(s.gamma1));
+    phi.push_back(ordex::to_json(s.phi));
+    g0.push_back(ordex::to_json(s.gamma0));
+    if (m.hold == Hold::Linear) g1.push_back(ordex::to_json(s.gamma1));
   }
   j["phi"] = phi;
   if (m.hold == Hold::Zoh) {
@@ -161,7 +182,8 @@ void write_discrete_model_csv(const std::string& path, const DiscreteModel& m) {
   w.commit();
 }
 
-std::string discretize_report_text(const DiscretizeReport& rep, const System& sys) {
+std::string DiscretizeReport::brief() const {
+  const DiscretizeReport& rep = *this;
   const DiscreteModel& m = rep.model;
   std::ostringstream s;
   s.precision(6);

@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "io/json.hpp"
+#include "model/model_report.hpp"
 #include "propagation/options.hpp"
 #include "response/input_history.hpp"
 #include "response/step_matrices.hpp"
@@ -25,7 +26,13 @@ struct DiscretizeOptions {
   /// Reuse the step of an equal-length interval when the model looks time-invariant
   /// (known_time_invariant); default true.
   bool reuse_time_invariant = true;
-  /// Throws InputError naming the option when a field is out of range.
+  /// For discretize(sys, t0, t1, ...): the grid t0, t0 + step, t0 + 2 step, ... and t1 (step_grid);
+  /// default 0 means `samples` equally spaced times instead. 0 or a positive number.
+  double step = 0;
+  /// For discretize(sys, t0, t1, ...) without a step: this many equally spaced times in the
+  /// window, both ends included; default 101. Must lie in [2, 10^7].
+  int samples = 101;
+  /// Throws InputError naming the field ("DiscretizeOptions::samples = 1 is outside ...").
   void validate() const;
 };
 
@@ -37,6 +44,10 @@ struct DiscreteModel {
 };
 
 struct DiscretizeReport {
+  /// The common header: the model (title, source, parameters in effect), the grid's first and
+  /// last time, and the engine method used.
+  ReportHeader header;
+  std::vector<std::string> states, inputs;  ///< the model's names
   DiscreteModel model;
   Method method = Method::Auto;  ///< engine method used
   PropagationStats propagation;  ///< engine counts and error estimate
@@ -44,14 +55,23 @@ struct DiscretizeReport {
   long reused_steps = 0;         ///< intervals reused from an equal-length one (time-invariant)
   bool time_invariant = false;   ///< whether the grid was treated as time-invariant
   double seconds = 0;            ///< wall time
+
+  /// The summary (CONTRACT.md): the header, then hold, names, intervals, times, phi (a list over
+  /// the intervals of n x n), gamma (zoh) or gamma0 and gamma1 (linear), n x m each, and stats.
+  Json to_json() const;
+  /// A few lines for standard output.
+  std::string brief() const;
 };
 
-/// The discrete model of SYS on TIMES (at least 2, strictly increasing).
+/// The discrete model of SYS on TIMES (at least 2, strictly increasing, finite).
 DiscretizeReport discretize(const System& sys, const std::vector<double>& times, const DiscretizeOptions& options);
+/// The discrete model of SYS over [T0, T1] on the grid of OPTIONS.step, or OPTIONS.samples
+/// equally spaced times.
+DiscretizeReport discretize(const System& sys, double t0, double t1, const DiscretizeOptions& options);
 
 /// t0, t0 + h, t0 + 2h, ... and t1 (the last interval is shorter when H does not divide the
 /// window; one shorter than 1e-9 h is merged into its neighbour). Requires t0 < t1, h > 0 and
-/// at most 10^7 intervals; throws InputError naming --step.
+/// at most 10^7 intervals; throws InputError naming DiscretizeOptions::step.
 std::vector<double> step_grid(double t0, double t1, double h);
 
 /// Reads one time a line from PATH (blank lines and '#' comments skipped; an optional first
@@ -63,13 +83,7 @@ std::vector<double> read_time_grid(const std::string& path);
 /// from X0, with U row k = u(t_k). Returns (K+1) x n.
 Eigen::MatrixXd simulate_discrete(const DiscreteModel& model, const Eigen::VectorXd& x0, const Eigen::MatrixXd& U);
 
-/// JSON (CONTRACT.md): times, phi (list over intervals of n x n), and gamma (zoh) or gamma0
-/// and gamma1 (linear), lists over intervals of n x m; plus app, hold, method, stats.
-Json discretize_report_json(const DiscretizeReport& report, const System& sys);
 /// CSV, one row an interval: k,t_start,t_end,phi_1_1..phi_n_n, then gamma_1_1..gamma_n_m
 /// (zoh) or gamma0_1_1..gamma0_n_m,gamma1_1_1..gamma1_n_m (linear); row-major, 1-based.
 void write_discrete_model_csv(const std::string& path, const DiscreteModel& model);
-/// A few lines for standard output.
-std::string discretize_report_text(const DiscretizeReport& report, const System& sys);
-
 }  // namespace ordex

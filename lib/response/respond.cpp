@@ -11,6 +11,7 @@
 #include "io/errors.hpp"
 #include "propagation/stats_json.hpp"
 #include "io/output_file.hpp"
+#include "model/time_grid.hpp"
 #include "response/direct_path.hpp"
 #include "response/step_matrices.hpp"
 
@@ -26,18 +27,21 @@ struct RunPlan {
   std::vector<std::size_t> output_knots;  // indices into knots, one per output time
 };
 
-RunPlan plan_run(const InputHistory& h, const RespondOptions& o) {
+// WINDOW: the resolved window, or none for the history's own span. OUTPUT_TIMES: explicit output
+// times, or empty for the history's sample times.
+RunPlan plan_run(const InputHistory& h, const std::optional<std::pair<double, double>>& window,
+                 const std::vector<double>& output_times) {
   RunPlan p;
   p.history = &h;
-  p.t0 = o.window ? o.window->first : h.times.front();
-  p.t1 = o.window ? o.window->second : h.times.back();
+  p.t0 = window ? window->first : h.times.front();
+  p.t1 = window ? window->second : h.times.back();
   if (p.t0 < h.times.front())
     throw InputError(h.where(0) + ": the window starts at t = " + format_number(p.t0) +
                      ", before the first sample (t = " + format_number(h.times.front()) + ")");
   if (p.t1 > h.times.back())
     throw InputError(h.where(h.samples() - 1) + ": the window ends at t = " + format_number(p.t1) +
                      ", after the last sample (t = " + format_number(h.times.back()) + ")");
-  std::vector<double> outputs = o.sample_times;
+  std::vector<double> outputs = output_times;
   if (outputs.empty()) {
     outputs.push_back(p.t0);
     for (double t : h.times)
@@ -123,36 +127,35 @@ std::string response_path_name(ResponsePath p) { return p == ResponsePath::Exact
 ResponsePath parse_response_path(const std::string& name) {
   if (name == "exact") return ResponsePath::Exact;
   if (name == "direct") return ResponsePath::Direct;
-  throw InputError("--path: unknown path '" + name + "' (choose exact or direct)");
+  throw InputError("RespondOptions::path: unknown path '" + name + "' (choose exact or direct)");
 }
 
 void RespondOptions::validate(const System& sys) const {
   propagation.validate();
   if (path == ResponsePath::Direct &&
       (propagation.method == Method::Magnus4 || propagation.method == Method::Magnus6))
-    throw InputError("--method: " + method_name(propagation.method) +
+    throw InputError("PropagationOptions::method: " + method_name(propagation.method) +
                      " is an engine method of the exact path; the direct path takes auto, adams or bdf");
   if (x0.size() != 0 && x0.size() != sys.states())
-    throw InputError("--x0: " + std::to_string(x0.size()) + " entries, the model has " +
+    throw InputError("RespondOptions::x0: " + std::to_string(x0.size()) + " entries, the model has " +
                      std::to_string(sys.states()) + " states");
-  if (x0.size() != 0 && !x0.allFinite()) throw InputError("--x0: entries must be finite");
-  if (window) {
-    if (!std::isfinite(window->first) || !std::isfinite(window->second))
-      throw InputError("--from/--to: the window must be finite");
-    if (!(window->first < window->second))
-      throw InputError("--from/--to: the window must run forward (from " + format_number(window->first) +
-                       " to " + format_number(window->second) + ")");
-  }
+  if (x0.size() != 0 && !x0.allFinite()) throw InputError("RespondOptions::x0: entries must be finite");
+  if ((t0 && !std::isfinite(*t0)) || (t1 && !std::isfinite(*t1)))
+    throw InputError("RespondOptions::t0/t1: the window must be finite");
+  if (t0 && t1 && !(*t0 < *t1))
+    throw InputError("RespondOptions::t0/t1: the window must run forward (from " + format_number(*t0) + " to " +
+                     format_number(*t1) + ")");
+  if (samples != 0 && (samples < 2 || samples > 10000000))
+    throw InputError("RespondOptions::samples = " + std::to_string(samples) + " is outside [2, 10000000] (or 0)");
   for (std::size_t k = 0; k < sample_times.size(); ++k) {
-    if (!std::isfinite(sample_times[k])) throw InputError("--samples: output times must be finite");
+    if (!std::isfinite(sample_times[k])) throw InputError("RespondOptions::sample_times: times must be finite");
     if (k > 0 && !(sample_times[k] > sample_times[k - 1]))
-      throw InputError("--samples: output times must be strictly increasing");
+      throw InputError("RespondOptions::sample_times: times must be strictly increasing");
   }
-  if (!sample_times.empty() && window &&
-      (sample_times.front() < window->first || sample_times.back() > window->second))
-    throw InputError("--samples: output times must lie inside the window");
-  if (!sample_times.empty() && !window)
-    throw InputError("--samples: output times need an explicit window");
+  if (!sample_times.empty() && (!t0 || !t1))
+    throw InputError("RespondOptions::sample_times: explicit output times need the window (t0 and t1)");
+  if (!sample_times.empty() && (sample_times.front() < *t0 || sample_times.back() > *t1))
+    throw InputError("RespondOptions::sample_times: output times must lie inside the window");
 }
 
 InputHistory free_response_history(double t0, double t1) {
@@ -164,16 +167,60 @@ RespondReport respond(const System& sys, const std::vector<InputHistory>& histor
   const auto start = std::chrono::steady_clock::now();
   o.validate(sys);
   const int n = sys.states(), m = sys.inputs();
+  const SystemInfo& info = sys.info();
   RespondReport rep;
+  rep.states = info.state_names;
+  rep.inputs = info.input_names;
+  rep.outputs = info.output_names;
   rep.hold = o.hold;
   rep.path = o.path;
-  if (histories.empty()) throw InputError("no input history to respond to");
-  std::vector<RunPlan> plans;
   for (const InputHistory& h : histories) {
+    if (h.inputs() != m && m == 0)
+      throw InputError(h.source + ": the model has no inputs (give no history for its free response)");
     if (h.inputs() != m)
       throw InputError(h.source + ": " + std::to_string(h.inputs()) + " input columns, the model has " +
                        std::to_string(m) + " inputs");
-    plans.push_back(plan_run(h, o));
+  }
+  // The window: the options, else the model's declared [window], else the histories' span.
+  std::optional<double> t0 = o.t0, t1 = o.t1;
+  if (info.window && !info.window_from_tables) {
+    if (!t0) t0 = info.window->first;
+    if (!t1) t1 = info.window->second;
+  }
+  std::vector<InputHistory> free_run;
+  if (histories.empty()) {
+    if (m > 0) throw InputError("respond: no input history given, and the model has " + std::to_string(m) + " inputs");
+    if (!t0 || !t1)
+      throw InputError("RespondOptions::t0/t1: " + info.source +
+                       " has no [window]: a free response needs the window");
+    free_run.push_back(free_response_history(*t0, *t1));
+  }
+  const std::vector<InputHistory>& hs = histories.empty() ? free_run : histories;
+  std::optional<std::pair<double, double>> window;
+  if (t0 || t1 || o.samples || histories.empty()) {
+    double lo = hs[0].times.front(), hi = hs[0].times.back();
+    for (const InputHistory& h : hs) {
+      lo = std::max(lo, h.times.front());
+      hi = std::min(hi, h.times.back());
+    }
+    window = std::make_pair(t0.value_or(lo), t1.value_or(hi));
+    if (!(window->first < window->second))
+      throw InputError("RespondOptions::t0/t1: the window [" + format_number(window->first) + ", " +
+                       format_number(window->second) + "] is empty or backward");
+  }
+  std::vector<double> output_times = o.sample_times;
+  if (output_times.empty() && window && (o.samples || histories.empty()))
+    output_times = linspace(window->first, window->second, o.samples ? o.samples : 101);
+  std::vector<RunPlan> plans;
+  for (const InputHistory& h : hs) {
+    plans.push_back(plan_run(h, window, output_times));
+    // A window the model cannot evaluate (a table that does not extrapolate) fails before any work.
+    sys.require_defined_on(plans.back().t0, plans.back().t1,
+                           window ? std::string("RespondOptions::t0/t1") : h.source + ": the input's time span");
+    if (!h.source.empty()) {
+      const std::string warning = window_fit_warning(h, plans.back().t0, plans.back().t1);
+      if (!warning.empty()) rep.warnings.push_back(warning);
+    }
   }
   const Eigen::VectorXd x0 = o.x0.size() ? o.x0 : Eigen::VectorXd::Zero(n);
   rep.runs.resize(plans.size());
@@ -195,21 +242,19 @@ RespondReport respond(const System& sys, const std::vector<InputHistory>& histor
   };
 
   if (o.path == ResponsePath::Direct) {
-    OdeOptions oo;
-    oo.scheme = o.direct_scheme;
-    if (o.propagation.method == Method::Bdf) oo.scheme = OdeScheme::Bdf;
-    if (o.propagation.method == Method::Adams) oo.scheme = OdeScheme::Adams;
-    oo.rtol = o.propagation.rtol;
-    oo.atol = o.propagation.atol;
-    oo.max_step = o.propagation.max_step;
-    oo.max_steps = o.propagation.max_steps;
-    rep.method = oo.scheme == OdeScheme::Adams ? Method::Adams : Method::Bdf;
+    const OdeOptions oo = ode_options(o.propagation, o.direct_scheme);
+    rep.method = method_of(oo.scheme);
     for (std::size_t i = 0; i < plans.size(); ++i) {
       const RunPlan& p = plans[i];
-      Eigen::MatrixXd X = direct_states(sys, *p.history, o.hold, p.knots, x0, oo, rep.direct);
+      Eigen::MatrixXd X = direct_states(sys, *p.history, o.hold, p.knots, x0, oo, rep.direct, &rep.direct_accuracy);
       rep.runs[i] = result_from_states(p, X.transpose());
       report_progress(p.knots.size() - 1);
     }
+    if (!rep.direct_accuracy.target_met)
+      rep.warnings.push_back("direct path: estimated error " + format_number(rep.direct_accuracy.error_estimate) +
+                             " is " + format_number(rep.direct_accuracy.error_ratio) +
+                             " times the requested tolerance (PropagationOptions::rtol = " +
+                             format_number(o.propagation.rtol) + ") even at rtol 1e-14");
     for (const auto& g : groups) {
       const RunPlan& p = plans[g.front()];
       const bool constant = o.reuse_time_invariant && known_time_invariant(sys, p.t0, p.t1);
@@ -274,9 +319,17 @@ RespondReport respond(const System& sys, const std::vector<InputHistory>& histor
     rep.computed_steps = builder.computed_steps();
     rep.reused_steps = builder.reused_steps();
   }
+  double t0_all = rep.runs.front().t0, t1_all = rep.runs.front().t1;
+  for (const RunResult& r : rep.runs) {
+    t0_all = std::min(t0_all, r.t0);
+    t1_all = std::max(t1_all, r.t1);
+  }
+  rep.header = report_header(sys, t0_all, t1_all, method_name(rep.method));
   rep.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
   return rep;
 }
+
+namespace {
 
 Json run_summary_json(const RunResult& run) {
   Json j;
@@ -289,44 +342,48 @@ Json run_summary_json(const RunResult& run) {
   return j;
 }
 
-Json respond_report_json(const RespondReport& rep, const System& sys) {
-  Json j;
-  j["app"] = "ordex-respond";
-  j["hold"] = hold_name(rep.hold);
-  j["path"] = response_path_name(rep.path);
-  j["method"] = method_name(rep.method);
-  j["states"] = sys.info().state_names;
-  j["inputs"] = sys.info().input_names;
-  j["outputs"] = sys.info().output_names;
-  if (rep.runs.size() == 1) {
-    const Json one = run_summary_json(rep.runs[0]);
+}  // namespace
+
+Json RespondReport::to_json() const {
+  Json j = header.to_json();
+  j["hold"] = hold_name(hold);
+  j["path"] = response_path_name(path);
+  j["states"] = states;
+  j["inputs"] = inputs;
+  j["outputs"] = outputs;
+  if (runs.size() == 1) {
+    const Json one = run_summary_json(runs[0]);
     for (auto it = one.begin(); it != one.end(); ++it) j[it.key()] = it.value();
   }
-  Json runs = Json::array();
-  for (const RunResult& r : rep.runs) runs.push_back(run_summary_json(r));
-  j["runs"] = runs;
-  j["grids"] = rep.grids;
-  if (rep.path == ResponsePath::Exact) {
-    add_propagation_stats(j, rep.propagation);
-    j["interval_steps_computed"] = rep.computed_steps;
-    j["interval_steps_reused"] = rep.reused_steps;
-    j["time_invariant"] = rep.time_invariant;
+  Json rs = Json::array();
+  for (const RunResult& r : runs) rs.push_back(run_summary_json(r));
+  j["runs"] = rs;
+  j["grids"] = grids;
+  if (path == ResponsePath::Exact) {
+    add_propagation_stats(j, propagation);
+    j["interval_steps_computed"] = computed_steps;
+    j["interval_steps_reused"] = reused_steps;
+    j["time_invariant"] = time_invariant;
   } else {
-    j["steps"] = rep.direct.steps;
-    j["rhs_evaluations"] = rep.direct.rhs_evaluations;
-    j["error_test_failures"] = rep.direct.error_test_failures;
+    j["steps"] = direct.steps;
+    j["rhs_evaluations"] = direct.rhs_evaluations;
+    j["error_test_failures"] = direct.error_test_failures;
+    j["error_estimate"] = direct_accuracy.error_estimate;  // tolerance reduction (direct_path.hpp)
+    j["tolerance_reached"] = direct_accuracy.target_met;
+    j["accuracy_runs"] = direct_accuracy.runs;
   }
-  j["seconds"] = rep.seconds;
+  if (!warnings.empty()) j["warnings"] = warnings;
+  j["seconds"] = seconds;
   return j;
 }
 
-void write_run_csv(const std::string& path, const System& sys, const RunResult& run) {
+void write_run_csv(const std::string& path, const RespondReport& report, const RunResult& run) {
   // Numbers in the shortest form that reads back to the same double (std::to_chars), which
   // is full precision and several times faster than stream formatting on long runs.
   OutputFile out(path);
   std::string line = "t";
-  for (const auto& s : sys.info().state_names) line += "," + s;
-  for (const auto& s : sys.info().output_names) line += "," + s;
+  for (const auto& s : report.states) line += "," + s;
+  for (const auto& s : report.outputs) line += "," + s;
   line += "\n";
   std::ostream& o = out.stream();
   o << line;
@@ -348,7 +405,8 @@ void write_run_csv(const std::string& path, const System& sys, const RunResult& 
   out.commit();
 }
 
-std::string respond_report_text(const RespondReport& rep, const System& sys) {
+std::string RespondReport::brief() const {
+  const RespondReport& rep = *this;
   std::ostringstream s;
   s.precision(6);
   s << "forced response: " << rep.runs.size() << (rep.runs.size() == 1 ? " run" : " runs") << ", hold "
@@ -371,8 +429,8 @@ std::string respond_report_text(const RespondReport& rep, const System& sys) {
     const RunResult& r = rep.runs[i];
     s << "run " << i + 1 << (r.source.empty() ? " (free response)" : ": " + r.source) << "  t = " << r.t0
       << " .. " << r.t1 << ", " << r.times.size() << " samples\n";
-    s << "  x(t1): " << vec(r.x_final, sys.info().state_names) << "\n";
-    if (r.y_final.size()) s << "  y(t1): " << vec(r.y_final, sys.info().output_names) << "\n";
+    s << "  x(t1): " << vec(r.x_final, states) << "\n";
+    if (r.y_final.size()) s << "  y(t1): " << vec(r.y_final, outputs) << "\n";
   }
   return s.str();
 }

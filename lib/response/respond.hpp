@@ -16,8 +16,10 @@
 #include <vector>
 
 #include "io/json.hpp"
+#include "model/model_report.hpp"
 #include "propagation/ode_integrator.hpp"
 #include "propagation/options.hpp"
+#include "response/direct_path.hpp"
 #include "response/input_history.hpp"
 
 namespace ordex {
@@ -29,7 +31,7 @@ enum class ResponsePath {
 };
 /// "exact" or "direct".
 std::string response_path_name(ResponsePath p);
-/// Inverse of response_path_name; throws InputError "--path: ...".
+/// Inverse of response_path_name; throws InputError "RespondOptions::path: unknown path ...".
 ResponsePath parse_response_path(const std::string& name);
 
 struct RespondOptions {
@@ -47,18 +49,25 @@ struct RespondOptions {
   /// constant, no breakpoints), intervals of equal length share one step computation; default
   /// true.
   bool reuse_time_invariant = true;
-  /// Window [t0, t1] with t0 < t1; empty (default) means each history's own time span. It must
-  /// lie within the samples of every history.
-  std::optional<std::pair<double, double>> window;
-  /// Output times, strictly increasing, inside the window; empty (default) means the
-  /// history's sample times inside the window together with the window's ends.
+  /// Start and end of the window. Default none: the model's declared [window] when it has one
+  /// (not one derived from its tables); else, when samples or sample_times are given or only one
+  /// end is set, the span every history covers; else each history's own span. The window must
+  /// lie within the samples of every history; t0 < t1.
+  std::optional<double> t0, t1;
+  /// Output times: this many equally spaced in the window, both ends included; default 0 means
+  /// the histories' own sample times in the window with its ends (101 for a free response).
+  /// 0 or in [2, 10^7].
+  int samples = 0;
+  /// Explicit output times, strictly increasing, inside the window (which must then be set);
+  /// default empty. Replaces samples.
   std::vector<double> sample_times;
   /// Initial state x(t0); empty (default) means zero.
   Eigen::VectorXd x0;
   /// Called now and then with the fraction of the work done; may be empty (default).
   std::function<void(double)> progress;
 
-  /// Throws InputError naming the option when a field is out of range for SYS.
+  /// Throws InputError naming the field ("RespondOptions::x0: 3 entries, the model has 2
+  /// states") when a field is out of range for SYS.
   void validate(const System& sys) const;
 };
 
@@ -74,35 +83,44 @@ struct RunResult {
 };
 
 struct RespondReport {
+  /// The common header: the model (title, source, parameters in effect), t0 and t1 (the span
+  /// of the runs' windows) and the method used.
+  ReportHeader header;
+  std::vector<std::string> states, inputs, outputs;  ///< the model's names
   std::vector<RunResult> runs;  ///< one per history, in the order given
   Hold hold = Hold::Linear;
   ResponsePath path = ResponsePath::Exact;
   Method method = Method::Auto;     ///< exact path: engine method used
   PropagationStats propagation;     ///< exact path: engine counts and error estimate
   OdeStats direct;                  ///< direct path: CVODE counts
+  DirectAccuracy direct_accuracy;   ///< direct path: estimated global error against the tolerance
   std::size_t grids = 0;            ///< distinct time grids (exact path: step matrices per grid)
   long computed_steps = 0;          ///< exact path: interval steps integrated by the engine
   long reused_steps = 0;            ///< exact path: steps reused from an equal-length interval
   bool time_invariant = false;      ///< exact path: some grid was treated as time-invariant
   double seconds = 0;               ///< wall time of the computation
+  /// Lines for standard error: histories of which only a few samples fall inside the window
+  /// (window_fit_warning), usually times in another unit than the model's.
+  std::vector<std::string> warnings;
+
+  /// The summary: the common header (ordex_version, model, t0, t1, method), then hold, path, names, runs (each: input, t0, t1, samples, x_final, y_final),
+  /// with one run also its keys at the top level, and stats. The app adds "app".
+  Json to_json() const;
+  /// A few lines for standard output.
+  std::string brief() const;
 };
 
-/// The responses of SYS to HISTORIES (each with SYS's number of inputs). Throws InputError for
-/// a history that does not cover the window, NumericalError when the integration fails.
+/// The response job: the responses of SYS to HISTORIES (each with SYS's number of inputs; none
+/// for a model without inputs gives its free response over the window). Throws InputError for
+/// bad options or a history that does not cover the window, NumericalError when the
+/// integration fails.
 RespondReport respond(const System& sys, const std::vector<InputHistory>& histories,
                       const RespondOptions& options);
 
 /// A history with no inputs spanning [t0, t1]: the free response of a model without inputs.
 InputHistory free_response_history(double t0, double t1);
 
-/// JSON summary of one run (CONTRACT.md): input, t0, t1, samples, x_final, y_final.
-Json run_summary_json(const RunResult& run);
-/// The whole report: app, method, hold, path, stats, runs; with one run also its summary keys
-/// at the top level.
-Json respond_report_json(const RespondReport& report, const System& sys);
 /// Writes RUN as CSV `t,<state names>,<output names>` (atomic).
-void write_run_csv(const std::string& path, const System& sys, const RunResult& run);
-/// A few lines for standard output.
-std::string respond_report_text(const RespondReport& report, const System& sys);
+void write_run_csv(const std::string& path, const RespondReport& report, const RunResult& run);
 
 }  // namespace ordex

@@ -15,14 +15,15 @@ std::string solver_name(RiccatiSolver s) { return s == RiccatiSolver::RiccatiOde
 RiccatiSolver parse_solver(const std::string& name) {
   if (name == "ode") return RiccatiSolver::RiccatiOde;
   if (name == "hamiltonian") return RiccatiSolver::Hamiltonian;
-  throw InputError("--solver: unknown solver '" + name + "' (choose ode or hamiltonian)");
+  throw InputError("RiccatiOptions::solver: unknown solver '" + name + "' (choose ode or hamiltonian)");
 }
 
 void RiccatiOptions::validate() const {
   propagation.validate();
   weight_check.validate();
   if (dense_intervals < 1 || dense_intervals > 10000000)
-    throw InputError("--dense: " + std::to_string(dense_intervals) + " is outside [1, 10000000]");
+    throw InputError("RiccatiOptions::dense_intervals = " + std::to_string(dense_intervals) +
+                     " is outside [1, 10000000]");
 }
 
 namespace riccati_detail {
@@ -88,7 +89,9 @@ RiccatiSolution solve_riccati(const System& sys, const Weights& w, const std::ve
   options.validate();
   if (output_times.size() < 2) throw InputError("Riccati solver: at least two output times are needed");
   const double t0 = output_times.front(), t1 = output_times.back();
-  if (!(t1 > t0)) throw InputError("the horizon must run forward: --to must be later than --from");
+  if (!(t1 > t0))
+    throw InputError("Riccati solver: the horizon must run forward (t1 = " + format_number(t1) +
+                     " is not later than t0 = " + format_number(t0) + ")");
   for (std::size_t k = 1; k < output_times.size(); ++k)
     if (!(output_times[k] > output_times[k - 1]))
       throw InputError("Riccati solver: output times must be strictly increasing");

@@ -26,7 +26,8 @@ enum class RiccatiSolver {
 
 /// "ode" or "hamiltonian".
 std::string solver_name(RiccatiSolver s);
-/// Inverse of solver_name; throws InputError "--solver: unknown solver 'x' (choose ode or hamiltonian)".
+/// Inverse of solver_name; throws InputError "RiccatiOptions::solver: unknown solver 'x' (choose ode
+/// or hamiltonian)".
 RiccatiSolver parse_solver(const std::string& name);
 
 struct RiccatiOptions {
@@ -44,7 +45,8 @@ struct RiccatiOptions {
   int dense_intervals = 2000;
   /// Tolerances of the checks on the weights; defaults in WeightCheckOptions.
   WeightCheckOptions weight_check;
-  /// Throws InputError naming the option when a field is out of range.
+  /// Throws InputError naming the field ("RiccatiOptions::dense_intervals = 0 is outside ...");
+  /// the engine and weight-check fields are named by their own structs.
   void validate() const;
 };
 

@@ -72,7 +72,8 @@ TEST(RegulateApp, ScalarSummaryMatchesClosedForm) {
   const double xf = j["x_final"][0].get<double>();
   EXPECT_GT(xf, 0);
   EXPECT_LT(xf, 2 * std::exp(-2.0));
-  EXPECT_NEAR(j["closed_loop_phi"][0][0].get<double>() * 2, xf, 1e-7 * xf);
+  EXPECT_NEAR(j["closed_loop"]["phi"][0][0].get<double>() * 2, xf, 1e-7 * xf);
+  EXPECT_EQ(j["closed_loop"]["status"], "ok");
   EXPECT_EQ(j["solver"], "ode");  // the default
   EXPECT_EQ(j["app"], "ordex-regulate");
   EXPECT_FALSE(j.contains("floquet"));  // not a periodic model
@@ -181,7 +182,7 @@ TEST(RegulateApp, RejectsBadOptions) {
   expect_input_error(scalar_args() + " --dense 0", {"--dense"});
   expect_input_error(scalar_args() + " --from 3 --to 0", {"forward"});
   expect_input_error("--model " + kData + "riccati_scalar.toml --weights " + temp_dir() + "/absent.toml",
-                     {"absent.toml", "cannot open"});
+                     {"absent.toml", "no such weights file"});
 }
 
 TEST(RegulateApp, HelpListsTheOptions) {
@@ -189,4 +190,27 @@ TEST(RegulateApp, HelpListsTheOptions) {
   EXPECT_EQ(r.exit_code, 0);
   for (const char* opt : {"--weights", "--solver", "--x0", "--dense", "--p-csv", "--response-csv", "--samples"})
     EXPECT_NE(r.out.find(opt), std::string::npos) << opt;
+}
+
+TEST(RegulateApp, FailedClosedLoopCheckIsAWarningAndTheScheduleIsWritten) {
+  // A step budget of 100 cannot cover twelve stiff revolutions (tests/data/regulator_stiff_blade.toml):
+  // exit 0 as documented in --help, one warning line naming the flag, the gain schedule written,
+  // the summary saying the check failed and why, and no half-written run CSV.
+  const std::string csv = temp_dir() + "/stiff_gains.csv", json = temp_dir() + "/stiff.json",
+                    run = temp_dir() + "/stiff_run.csv";
+  auto r = run_app("ordex-regulate", "--model " + kData + "regulator_stiff_blade.toml --x0 0.01,0 --check-steps 100"
+                                     " --csv " + csv + " --json " + json + " --response-csv " + run);
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  EXPECT_EQ(ordex_test::line_count(r.err), 1) << r.err;
+  EXPECT_EQ(r.err.rfind("ordex-regulate: warning: the closed-loop check failed", 0), 0u) << r.err;
+  EXPECT_NE(r.err.find("--check-steps"), std::string::npos) << r.err;
+  EXPECT_EQ(ordex_test::line_count(ordex_test::read_file(csv)), 102);  // header + 101 times
+  EXPECT_FALSE(file_exists(run));
+  auto j = nlohmann::json::parse(ordex_test::read_file(json));
+  EXPECT_EQ(j["closed_loop"]["status"], "failed");
+  EXPECT_FALSE(j["closed_loop"]["reason"].get<std::string>().empty());
+  EXPECT_EQ(j["gain_schedule"]["K"].size(), 101u);
+  auto h = run_app("ordex-regulate", "--help");
+  EXPECT_NE(h.out.find("--check-steps"), std::string::npos);
+  EXPECT_NE(h.out.find("also 0 when the closed-loop check fails"), std::string::npos);
 }

@@ -65,6 +65,7 @@ int main(int argc, char** argv) {
         throw InputError("--csv: two inputs would both write " + name + " in " + c.csv + " (rename an input)");
       csvs.push_back((fs::path(c.csv) / name).string());
     }
+    if (inputs.size() > 1 && !c.csv.empty()) fs::create_directories(c.csv);  // checked as the CSVs' folder
     std::vector<std::string> outputs = csvs;
     outputs.push_back(c.json);
     check_output_paths(outputs, run_inputs(sys, inputs));
@@ -74,7 +75,6 @@ int main(int argc, char** argv) {
     const RespondReport rep = respond(sys, histories, o);
     for (const std::string& w : rep.warnings) std::cerr << "ordex-respond: warning: " << w << std::endl;
     json.write(with_app("ordex-respond", rep.to_json()));
-    if (inputs.size() > 1 && !c.csv.empty()) fs::create_directories(c.csv);
     for (std::size_t i = 0; i < csvs.size(); ++i) write_run_csv(csvs[i], rep, rep.runs[i]);
     json.commit();
     if (report_to_stdout(c)) std::cout << rep.brief();

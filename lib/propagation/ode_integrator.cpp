@@ -6,6 +6,7 @@
 #include <algorithm>
 #include <cmath>
 #include <exception>
+#include <limits>
 
 #include <cvode/cvode.h>
 #include <nvector/nvector_serial.h>
@@ -275,7 +276,9 @@ void OdeIntegrator::advance(double target, double* yout) {
       // No jump before the target: let CVODE step past it and interpolate (its dense output
       // is of the method's order), stopping only at the next breakpoint beyond, if any. Output
       // times then cost no extra steps.
-      if (bp) s.check(CVodeSetStopTime(s.mem, *bp), "stop time");
+      // (A stop time far away otherwise: one left from an earlier leg would be behind us.)
+      s.check(CVodeSetStopTime(s.mem, bp ? *bp : (forward ? 1.0 : -1.0) * std::numeric_limits<double>::max()),
+              "stop time");
       s.set_leg(s.t, bp ? *bp : target);
       realtype tret = s.t;
       s.after_call(CVode(s.mem, target, s.y, &tret, CV_NORMAL), tret);

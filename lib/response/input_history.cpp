@@ -19,10 +19,10 @@ std::string join(const std::vector<std::string>& names) {
 
 std::string hold_name(Hold hold) { return hold == Hold::Zoh ? "zoh" : "linear"; }
 
-Hold parse_hold(const std::string& name) {
+Hold parse_hold(const std::string& name, const std::string& what) {
   if (name == "zoh") return Hold::Zoh;
   if (name == "linear") return Hold::Linear;
-  throw InputError("--hold: unknown hold '" + name + "' (choose zoh or linear)");
+  throw InputError(what + ": unknown hold '" + name + "' (choose zoh or linear)");
 }
 
 std::string InputHistory::where(std::size_t k) const {

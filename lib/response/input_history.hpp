@@ -17,8 +17,9 @@ enum class Hold {
 
 /// "zoh" or "linear".
 std::string hold_name(Hold hold);
-/// Inverse of hold_name; throws InputError "--hold: unknown hold 'x' (choose zoh or linear)".
-Hold parse_hold(const std::string& name);
+/// Inverse of hold_name; throws InputError "WHAT: unknown hold 'x' (choose zoh or linear)", WHAT
+/// naming the field (or, in an app, the flag) the name came from.
+Hold parse_hold(const std::string& name, const std::string& what = "hold");
 
 /// Samples of the input vector: row k of VALUES is u(times[k]).
 struct InputHistory {

@@ -50,7 +50,7 @@ void solve_by_hamiltonian(const System& sys, const Weights& w, const RiccatiOpti
     if (!(rc > 1e-13))
       throw NumericalError("Hamiltonian step: S11 + S12 P is singular at t = " + format_number(t) +
                            " (reciprocal condition " + format_number(rc) +
-                           "); a stiff plant needs a finer --dense grid, or --solver ode");
+                           "); a stiff plant needs a finer grid (RiccatiOptions::dense_intervals) or RiccatiOptions::solver = ode");
     P = lu.solve(Y.transpose()).transpose();
     P = (0.5 * (P + P.transpose())).eval();  // eval: in place it would alias
     require_finite_matrix(P, "P (Hamiltonian route)", t);

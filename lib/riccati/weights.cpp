@@ -170,9 +170,11 @@ Weights load_weights(const std::string& path, int n, int m) {
 
 void WeightCheckOptions::validate() const {
   if (!(symmetry_tolerance > 0 && symmetry_tolerance <= 1e-2))
-    throw InputError("weights symmetry_tolerance: must lie in (0, 1e-2]");
+    throw InputError("WeightCheckOptions::symmetry_tolerance = " + format_number(symmetry_tolerance) +
+                     " is outside (0, 1e-2]");
   if (!(definiteness_tolerance > 0 && definiteness_tolerance <= 1e-2))
-    throw InputError("weights definiteness_tolerance: must lie in (0, 1e-2]");
+    throw InputError("WeightCheckOptions::definiteness_tolerance = " + format_number(definiteness_tolerance) +
+                     " is outside (0, 1e-2]");
 }
 
 namespace {

@@ -69,7 +69,8 @@ struct WeightCheckOptions {
   /// An eigenvalue counts as negative below -tol * max(1, largest |eigenvalue|); default 1e-10.
   /// R must have every eigenvalue above +tol * max(1, largest |eigenvalue|).
   double definiteness_tolerance = 1e-10;
-  /// Throws InputError when a tolerance is not in (0, 1e-2].
+  /// Throws InputError naming the field ("WeightCheckOptions::symmetry_tolerance = 0 is outside
+  /// (0, 1e-2]") when a tolerance is not in (0, 1e-2].
   void validate() const;
 };
 

@@ -296,7 +296,7 @@ TEST(ModelFile, EveryMistakeNamesTheKey) {
        ": matrices.A[2][1]: '1/t' evaluates to inf at t = 0"},
       {"constant entry not finite", h + "[matrices]\nA = [[0, \"sqrt(-1)\"], [0, 0]]\n",
        ": matrices.A[1][2]: evaluates to"},
-      {"bad eccentricity", h + "[parameters]\necc = 1.2\n[define]\nf = \"true_anomaly(t, ecc)\"\n[matrices]\nA = [[0, 1], [\"f\", 0]]\n",
+      {"bad eccentricity", h + "[window]\nfrom = 0\nto = 1\n[parameters]\necc = 1.2\n[define]\nf = \"true_anomaly(t, ecc)\"\n[matrices]\nA = [[0, 1], [\"f\", 0]]\n",
        ": define.f: 'true_anomaly(t, ecc)' evaluates to nan at t = 0"},
       {"constant define not finite", h + "[define]\nk = \"log(0)\"\n[matrices]\nA = [[0, 1], [\"k\", 0]]\n",
        ": define.k: 'log(0)' evaluates to -inf"},
@@ -326,7 +326,7 @@ TEST(ModelFile, MissingFile) {
     load_model("/nonexistent/dir/model.toml");
     ADD_FAILURE();
   } catch (const InputError& e) {
-    EXPECT_EQ(std::string(e.what()), "/nonexistent/dir/model.toml: cannot open the model file");
+    EXPECT_EQ(std::string(e.what()), "/nonexistent/dir/model.toml: no such model file");
   }
   try {
     load_model(temp_dir());
@@ -353,7 +353,7 @@ TEST(ModelFile, NonFiniteDuringEvaluationIsNumericalError) {
     ADD_FAILURE();
   } catch (const ordex::NumericalError& e) {
     std::string msg = e.what();
-    EXPECT_NE(msg.find("matrices.A[1][1] is inf at t = 1"), std::string::npos) << msg;
+    EXPECT_NE(msg.find("matrices.A[1][1] = 1/(t - 1) is not finite (inf) at t = 1"), std::string::npos) << msg;
   }
 }
 

@@ -302,7 +302,7 @@ TEST(ModelTable, MistakesNameTheFileAndLine) {
       {"unknown outside", "t,U\n0,1\n1,2\n", std_table + "outside = \"clamp\"\n", ": table.outside: expected \"error\" or \"hold\""},
       {"unknown key", "t,U\n0,1\n1,2\n", std_table + "columns = [\"U\"]\n", ": table.columns: unknown key"},
       {"no file", "t,U\n0,1\n1,2\n", "interpolation = \"linear\"\n", ": table.file: missing"},
-      {"missing csv", "t,U\n0,1\n1,2\n", "file = \"absent.csv\"\n", temp_dir() + "/absent.csv: cannot open for reading"},
+      {"missing csv", "t,U\n0,1\n1,2\n", "file = \"absent.csv\"\n", temp_dir() + "/absent.csv: no such CSV file"},
   };
   for (const BadTable& c : cases) {
     write("bad.csv", c.csv);

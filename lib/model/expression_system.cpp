@@ -237,6 +237,13 @@ void ExpressionSystem::check_finite_at(double t) const {
         throw InputError(spec_.path + ": " + e.key + ": '" + e.expr.text() + "' evaluates to " +
                          format_number(v) + " at t = " + format_number(t));
     }
+  }
+  check_constant_entries();
+}
+
+void ExpressionSystem::check_constant_entries() const {
+  const Compiled& c = *c_;
+  for (const CompiledMatrix* m : {&c.A, &c.B, &c.C, &c.D})
     for (Eigen::Index i = 0; i < m->base.rows(); ++i)
       for (Eigen::Index j = 0; j < m->base.cols(); ++j)
         if (!std::isfinite(m->base(i, j)))
@@ -244,7 +251,6 @@ void ExpressionSystem::check_finite_at(double t) const {
                            (m == &c.A ? "A" : m == &c.B ? "B" : m == &c.C ? "C" : "D") + "[" +
                            std::to_string(i + 1) + "][" + std::to_string(j + 1) + "]: evaluates to " +
                            format_number(m->base(i, j)));
-  }
 }
 
 std::string ExpressionSystem::diagnose_entries(double t, double direction) const {

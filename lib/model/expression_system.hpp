@@ -81,6 +81,8 @@ class ExpressionSystem : public System {
   /// Evaluates every matrix and time-dependent definition at T and throws InputError naming
   /// the first key whose value is not finite (the load-time check).
   void check_finite_at(double t) const override;
+  /// Entries that do not depend on t must be finite whatever the window: checked at load.
+  void check_constant_entries() const;
 
   /// Names the first entry (key and text) that is not finite, huge or blowing up at or just
   /// beyond T (entry_diagnosis.hpp).

@@ -473,6 +473,7 @@ std::unique_ptr<System> ModelReader::load(const ParameterOverrides& overrides) {
       info.window ? std::optional<double>(info.window->first) : std::nullopt;
   auto sys_out = std::make_unique<ExpressionSystem>(std::move(spec_));
   if (t_check) sys_out->check_finite_at(*t_check);
+  else sys_out->check_constant_entries();
   return sys_out;
 }
 

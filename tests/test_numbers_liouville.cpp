@@ -86,7 +86,7 @@ TEST(NumbersLiouville, IllConditionedPhiIsJudgedByItsCondition) {
       // cond 4e15: the determinant carries no digit; the check says so instead of "5e4".
       EXPECT_FALSE(l.meaningful);
       EXPECT_FALSE(l.passed);
-      EXPECT_NE(l.note.find("ill-conditioned"), std::string::npos) << l.note;
+      EXPECT_NE(l.note.find("condition"), std::string::npos) << l.note;
     }
   }
 }

@@ -7,9 +7,20 @@
 #include <functional>
 #include <limits>
 #include <numeric>
+#include <sstream>
 #include <vector>
 
 #include "io/errors.hpp"
+
+namespace {
+// Three significant digits: enough for a diagnostic line.
+std::string short_number(double x) {
+  std::ostringstream o;
+  o.precision(3);
+  o << x;
+  return o.str();
+}
+}  // namespace
 
 namespace ordex {
 
@@ -139,8 +150,11 @@ LiouvilleReport liouville_check(const Generator& g, double t0, double t1, const 
   } else if (singular || !(r.tolerance < 1.0)) {
     r.meaningful = r.passed = false;
     r.relative_difference = std::numeric_limits<double>::quiet_NaN();
-    r.note = "not meaningful: Phi is too ill-conditioned (condition " + format_number(r.condition) +
-             ") for its determinant to be checked in double precision";
+    r.note = singular ? std::string("not meaningful: Phi is singular in double precision")
+                      : "not meaningful: Phi's condition " + short_number(r.condition) +
+                            " times its relative error " + short_number(rel_err) +
+                            " (round-off and the estimated integration error) lets log|det Phi| move by " +
+                            short_number(r.tolerance) + "; tighter tolerances make the check possible";
   } else if (sign < 0) {
     r.passed = false;
     r.note = "det Phi is negative, which no transition matrix can be: Phi is wrong";

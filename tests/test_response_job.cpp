@@ -92,6 +92,14 @@ TEST(DiscretizeJob, ZeroOrderHoldOfTheScalarPlantMatchesTheClosedForm) {
     EXPECT_NEAR(rep.model.steps[k].phi(0, 0), e, 1e-9);
     EXPECT_NEAR(rep.model.steps[k].gamma0(0, 0), b * (e - 1) / a, 1e-9);
   }
+  // The brief's growth over the grid is |Phi(1.1, 0)| = e^{1.1 a} (closed form), not the
+  // eigenvalue of one step.
+  const std::string brief = rep.brief();
+  const std::string key = "growth over the grid: |Phi(t_N, t_0)| = ";
+  const std::size_t at = brief.find(key);
+  ASSERT_NE(at, std::string::npos) << brief;
+  EXPECT_NEAR(std::stod(brief.substr(at + key.size())), std::exp(1.1 * a), 1e-5) << brief;
+  EXPECT_NE(brief.find("no stability verdict"), std::string::npos) << brief;
   const Json j = rep.to_json();
   expect_header(j, "code", 0.0, 1.1);
   EXPECT_EQ(j["gamma"].size(), 5u);

@@ -105,7 +105,8 @@ GramianReport gramian(const System& sys, double t0, double t1, const GramianJobO
   }
   if (!rep.result.gramian.allFinite())
     throw NumericalError("Gramian over [" + format_number(t0) + ", " + format_number(t1) + "] is not finite");
-  rep.spectrum = analyze_gramian(rep.result.gramian, options.rank_tol, g.scaling);
+  rep.spectrum = rep.result.factor.L.size() ? analyze_factor(rep.result.factor, options.rank_tol, g.scaling)
+                                             : analyze_gramian(rep.result.gramian, options.rank_tol, g.scaling);
   const std::string method = g.route == GramianRoute::Block
                                  ? method_name(rep.result.stats.method)
                                  : std::string("cvode-") + (rep.result.stats.method == Method::Bdf ? "bdf" : "adams");

@@ -13,7 +13,6 @@ LqrCoefficients::LqrCoefficients(const System& sys, const Weights& w)
   Q.resize(n_, n_);
   R.resize(m_, m_);
   N.resize(n_, m_);
-  llt_ = Eigen::LLT<Eigen::MatrixXd>(m_);
   G_.resize(m_, n_);
   RinvBt_.resize(m_, n_);
   RinvNt_.resize(m_, n_);

@@ -5,7 +5,12 @@ set -euo pipefail
 packages=(build-essential cmake pkg-config libeigen3-dev libsundials-dev libboost-dev
           libboost-program-options-dev libtomlplusplus-dev libmuparser-dev nlohmann-json3-dev
           libgtest-dev python3-numpy python3-scipy
-          clang libclang-rt-dev)  # clang + libFuzzer and sanitizer runtimes: scripts/test-fuzz.sh
+          clang libclang-rt-dev   # clang + libFuzzer and sanitizer runtimes: scripts/test-fuzz.sh
+          pybind11-dev python3-dev python3-pybind11 python3-matplotlib  # Python package and plots
+          libhdf5-dev python3-h5py  # HDF5 output of matrix series
+          libginac-dev              # exact Jacobians of nonlinear models
+          libopenmpi-dev openmpi-bin  # ordex-sweep across ranks
+          ccache)                   # faster rebuilds of the three test builds
 missing=()
 for p in "${packages[@]}"; do
   dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" || missing+=("$p")

@@ -4,11 +4,14 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <functional>
 #include <nlohmann/json.hpp>
 
 #include "model/expression_switching.hpp"
 #include "model/model_file.hpp"
 #include "propagation/propagator.hpp"
+#include "response/discretize.hpp"
+#include "riccati/regulator.hpp"
 #include "support.hpp"
 
 namespace {
@@ -104,6 +107,104 @@ TEST(NumbersSwitching, UnlocatableSwitchingTimesAreReportedByEntry) {
   ASSERT_EQ(g.notes.size(), 1u);
   EXPECT_NE(g.notes[0].find("matrices.A[2][1]"), std::string::npos) << g.notes[0];
   EXPECT_NE(g.notes[0].find("not located"), std::string::npos) << g.notes[0];
+}
+
+/// The square wave with an input on the velocity (B = [0; 1]) and no declared breakpoints.
+std::string write_forced_model(const std::string& name) {
+  const std::string path = ordex_test::temp_dir() + "/" + name + ".toml";
+  ordex_test::write_file(path, "[system]\nstates = [\"x\", \"v\"]\ninputs = [\"f\"]\n"
+                               "[parameters]\nw = 2.3\nk1 = 4.0\nk2 = 0.6\n"
+                               "[matrices]\nA = [[0, 1], [\"-(sin(w*t) >= 0 ? k1 : k2)\", 0]]\nB = [[0], [1]]\n");
+  return path;
+}
+
+/// The constant pieces of the square wave over [0, T]: switching times and stiffnesses.
+void square_wave_pieces(const SquareWave& q, double T, std::vector<double>& cuts, std::vector<double>& k) {
+  cuts = {0.0};
+  for (int m = 1; m * M_PI / q.w < T; ++m) cuts.push_back(m * M_PI / q.w);
+  cuts.push_back(T);
+  k.clear();
+  for (std::size_t p = 0; p + 1 < cuts.size(); ++p) k.push_back(p % 2 == 0 ? q.k1 : q.k2);
+}
+
+/// scipy: the product of exponentials of the pieces' matrices MAKE(k) over CUTS.
+Eigen::MatrixXd piecewise_product(const std::vector<double>& cuts, const std::vector<double>& k,
+                                  const std::function<Eigen::MatrixXd(double)>& make) {
+  nlohmann::json in;
+  in["pieces"] = nlohmann::json::array();
+  for (std::size_t p = 0; p + 1 < cuts.size(); ++p) {
+    const Eigen::MatrixXd a = make(k[p]);
+    nlohmann::json rows = nlohmann::json::array();
+    for (int i = 0; i < a.rows(); ++i) {
+      nlohmann::json row = nlohmann::json::array();
+      for (int j = 0; j < a.cols(); ++j) row.push_back(a(i, j));
+      rows.push_back(row);
+    }
+    in["pieces"].push_back({{"A", rows}, {"from", cuts[p]}, {"to", cuts[p + 1]}});
+  }
+  auto r = ordex_test::run_python("numbers_piecewise_expm.py", "'" + in.dump() + "'");
+  EXPECT_EQ(r.exit_code, 0) << r.err;
+  const auto j = nlohmann::json::parse(r.out)["phi"];
+  Eigen::MatrixXd m(j.size(), j[0].size());
+  for (int a = 0; a < m.rows(); ++a)
+    for (int b = 0; b < m.cols(); ++b) m(a, b) = j[a][b].get<double>();
+  return m;
+}
+
+TEST(NumbersSwitching, DiscreteModelLandsOnUndeclaredSwitchingTimes) {
+  // One interval [0, T] across three switches: the zero-order-hold step is the block
+  // exponential [[A, B], [0, 0]] over the pieces (Van Loan), from scipy.
+  const SquareWave q;
+  const double T = 3.5;
+  std::vector<double> cuts, k;
+  square_wave_pieces(q, T, cuts, k);
+  const Eigen::MatrixXd ref = piecewise_product(cuts, k, [](double kk) {
+    Eigen::MatrixXd g = Eigen::MatrixXd::Zero(3, 3);
+    g(0, 1) = 1;
+    g(1, 0) = -kk;
+    g(1, 2) = 1;
+    return g;
+  });
+  auto sys = load_model(write_forced_model("square_forced"));
+  DiscretizeOptions o;
+  o.propagation.rtol = 1e-12;
+  o.propagation.atol = 1e-14;
+  const DiscretizeReport r = discretize(*sys, std::vector<double>{0.0, T}, o);
+  ASSERT_EQ(r.model.steps.size(), 1u);
+  EXPECT_LT((r.model.steps[0].phi - ref.topLeftCorner(2, 2)).cwiseAbs().maxCoeff(), 1e-9) << r.model.steps[0].phi;
+  EXPECT_LT((r.model.steps[0].gamma0 - ref.topRightCorner(2, 1)).cwiseAbs().maxCoeff(), 1e-9);
+}
+
+TEST(NumbersSwitching, RegulatorLandsOnUndeclaredSwitchingTimes) {
+  // P(t0) of the finite-horizon LQR (Q = I, R = 1, Qf = 0) from the Hamiltonian's transition
+  // over the constant pieces (scipy): [X; Y](t0) = Psi(T, t0)^-1 [I; 0], P(t0) = Y X^-1
+  // (Kalman 1960; the linear-fractional form of the Riccati solution).
+  const SquareWave q;
+  const double T = 3.0;
+  std::vector<double> cuts, k;
+  square_wave_pieces(q, T, cuts, k);
+  const Eigen::MatrixXd psi = piecewise_product(cuts, k, [](double kk) {
+    Eigen::MatrixXd a(2, 2), h(4, 4);
+    a << 0, 1, -kk, 0;
+    Eigen::MatrixXd bb = Eigen::MatrixXd::Zero(2, 2);
+    bb(1, 1) = 1;  // B R^-1 B'
+    h << a, -bb, -Eigen::MatrixXd::Identity(2, 2), -a.transpose();
+    return h;
+  });
+  Eigen::MatrixXd end(4, 2);
+  end << Eigen::MatrixXd::Identity(2, 2), Eigen::MatrixXd::Zero(2, 2);
+  const Eigen::MatrixXd xy = psi.fullPivLu().solve(end);
+  const Eigen::MatrixXd P0 = xy.bottomRows(2) * xy.topRows(2).inverse();
+  auto sys = load_model(write_forced_model("square_regulated"));
+  for (RiccatiSolver solver : {RiccatiSolver::RiccatiOde, RiccatiSolver::Hamiltonian}) {
+    RegulatorOptions o;
+    o.riccati.solver = solver;
+    o.riccati.propagation.rtol = 1e-11;
+    o.riccati.propagation.atol = 1e-13;
+    o.check_closed_loop = false;
+    const RegulatorReport r = regulate(*sys, 0, T, o);
+    EXPECT_LT((r.P0 - P0).cwiseAbs().maxCoeff(), 1e-7 * P0.cwiseAbs().maxCoeff()) << r.P0 << "\n" << P0;
+  }
 }
 
 }  // namespace

@@ -132,6 +132,7 @@ GramianResult compute_gramian(const System& sys, double t0, double t1, const Gra
                            options.kind);
   } else {
     WeightedPair pair = pair_for_kind(sys, options.kind);
+    pair.breakpoints = sys.breakpoints_between(t0, t1);  // with the switching times in the window
     const OdeOptions o = ode_options(options.propagation, OdeScheme::Adams);
     OdeStats st;
     // The ODE's solution need not be semidefinite: its graded factor drops the negative part

@@ -119,7 +119,7 @@ TransferReport design_transfer(const System& sys, const GramianSweep& sweep, con
       z.topRightCorner(n, n).noalias() = (sp0 / sx) * (w->b * w->b.transpose());
       z.bottomRightCorner(n, n) = -w->a.transpose();
     };
-    sim.plant.breakpoints = sys.info().breakpoints;
+    sim.plant.breakpoints = sys.breakpoints_between(t0, t1);
     sim.plant.label = "transfer replay";
     sim.running_cost = [w, n, sp0, se](double t, const Eigen::VectorXd& z, const Eigen::VectorXd&) {
       w->sys->B(t, w->b);
@@ -138,7 +138,7 @@ TransferReport design_transfer(const System& sys, const GramianSweep& sweep, con
   // simulator restarts at each sample, where the interpolant kinks).
   {
     StateSimulation sim;
-    sim.plant = linear_plant(sys);
+    sim.plant = linear_plant(sys, t0, t1);
     sim.plant.label = "sampled-input replay";
     sim.input.samples.times = sweep.times;
     sim.input.samples.values = r.inputs / sx;

@@ -60,12 +60,15 @@ void System::require_defined_on(double a, double b, const std::string& what) con
   check_finite_at(a);
 }
 
-std::vector<double> System::breakpoints_between(double a, double b) const {
+std::vector<double> System::breakpoints_between(double a, double b, std::vector<std::string>* notes) const {
   double lo = std::min(a, b), hi = std::max(a, b);
   std::vector<double> out;
   for (double t : info_.breakpoints)
     if (t > lo && t < hi) out.push_back(t);
+  for (double t : switching_times(lo, hi, notes))
+    if (t > lo && t < hi) out.push_back(t);
   std::sort(out.begin(), out.end());
+  out.erase(std::unique(out.begin(), out.end()), out.end());
   return out;
 }
 

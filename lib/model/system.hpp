@@ -91,8 +91,12 @@ class System {
   Eigen::MatrixXd C(double t) const;
   Eigen::MatrixXd D(double t) const;
 
-  /// Sorted breakpoints strictly inside (a, b) (either order of a and b).
-  std::vector<double> breakpoints_between(double a, double b) const;
+  /// Sorted times strictly inside (a, b) (either order of a and b) where an entry may jump or
+  /// kink: the declared breakpoints and the switching times found in the model's expressions
+  /// (switching_times). Every module that builds an integration over a window takes its
+  /// breakpoints from here, so undeclared discontinuities are landed on everywhere. NOTES (when
+  /// given) receives the lines of entries whose switching times could not be located.
+  std::vector<double> breakpoints_between(double a, double b, std::vector<std::string>* notes = nullptr) const;
 
   /// Throws InputError naming WHAT (e.g. "--from/--to") when [a, b] reaches outside
   /// info().defined_span, so a window the model cannot cover fails before any work; then

@@ -8,14 +8,14 @@
 
 namespace ordex {
 
-LinearPlant linear_plant(const System& sys) {
+LinearPlant linear_plant(const System& sys, double t0, double t1) {
   LinearPlant p;
   p.states = sys.states();
   p.inputs = sys.inputs();
   const System* s = &sys;
   p.A = [s](double t, MatrixRef a) { s->A(t, a); };
   if (p.inputs > 0) p.B = [s](double t, MatrixRef b) { s->B(t, b); };
-  p.breakpoints = sys.info().breakpoints;
+  p.breakpoints = sys.breakpoints_between(t0, t1);  // with the switching times in the window
   p.state_names = sys.info().state_names;
   return p;
 }

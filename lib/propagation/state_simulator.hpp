@@ -34,9 +34,10 @@ struct LinearPlant {
   std::string label = "x' = A x + B u";           ///< names the simulation in messages
 };
 
-/// The plant of SYS (which must outlive the result): its A, B, breakpoints and state names.
+/// The plant of SYS (which must outlive the result) over [t0, t1]: its A, B, state names and the
+/// breakpoints and switching times inside the window (System::breakpoints_between).
 /// Not for concurrent use (a System is not thread-safe).
-LinearPlant linear_plant(const System& sys);
+LinearPlant linear_plant(const System& sys, double t0, double t1);
 
 /// How a sampled input is continued between samples t_k < t_{k+1}.
 enum class SampleInterpolation {

@@ -23,7 +23,7 @@ Eigen::MatrixXd direct_states(const System& sys, const InputHistory& h, Hold hol
                               const std::vector<double>& knots, const Eigen::VectorXd& x0,
                               const OdeOptions& options, OdeStats& stats, DirectAccuracy* accuracy) {
   StateSimulation sim;
-  sim.plant = linear_plant(sys);
+  sim.plant = linear_plant(sys, knots.front(), knots.back());
   sim.plant.label = "x' = A x + B u (direct path of " + h.source + ")";
   if (sys.inputs() > 0) {
     sim.input.samples.times = h.times;

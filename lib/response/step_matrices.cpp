@@ -67,7 +67,10 @@ void StepMatrixBuilder::for_each_step(const std::vector<double>& knots,
     if (!(knots[k] > knots[k - 1])) throw InputError("step grid: times must be strictly increasing");
   const int n = sys_.states(), m = sys_.inputs();
   time_invariant_ = reuse_ && known_time_invariant(sys_, knots.front(), knots.back());
-  Propagator propagator(generator_, options_);
+  // The switching times of non-smooth entries inside this grid's span become breakpoints.
+  Generator generator = generator_;
+  add_switching_times(generator, sys_, knots.front(), knots.back());
+  Propagator propagator(generator, options_);
   if (!time_invariant_) {
     propagator.for_each_interval(knots, [&](std::size_t k, const Eigen::MatrixXd& S) {
       ++computed_;

@@ -44,7 +44,7 @@ ClosedLoopRun simulate_closed_loop(const System& sys, const Weights& w, const Ri
   auto gains = std::make_shared<GainEvaluator>(sys, w, sol);
   auto K = std::make_shared<Eigen::MatrixXd>(m, n);
   StateSimulation sim;
-  sim.plant = linear_plant(sys);
+  sim.plant = linear_plant(sys, sol.t0(), sol.t1());
   sim.plant.label = "closed-loop simulation";
   sim.plant.A = [gains](double t, MatrixRef a) {
     gains->coefficients().at(t);

@@ -115,7 +115,7 @@ RiccatiSolution solve_riccati(const System& sys, const Weights& w, const std::ve
   Eigen::MatrixXd K(m, n);
   sol.dP_left.assign(count, Eigen::MatrixXd::Zero(n, n));
   sol.dP_right.assign(count, Eigen::MatrixXd::Zero(n, n));
-  const auto& bps = sys.info().breakpoints;
+  const std::vector<double> bps = sys.breakpoints_between(t0, t1);
   const double nudge = 1e-9 * std::max(1.0, std::max(std::abs(t0), std::abs(t1)));
   for (std::size_t i = 0; i < count; ++i) {
     const double t = sol.nodes[i];

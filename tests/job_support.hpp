@@ -4,6 +4,7 @@
 #include <memory>
 #include <nlohmann/json.hpp>
 #include <string>
+#include <vector>
 
 #include "io/errors.hpp"
 #include "model/function_system.hpp"
@@ -16,6 +17,34 @@ inline std::unique_ptr<ordex::FunctionSystem> scalar_plant(double a, double b, b
   sys->set_A([a](double, ordex::MatrixRef m) { m(0, 0) = a; });
   sys->set_B({"u"}, [b](double, ordex::MatrixRef m) { m(0, 0) = b; });
   if (with_output) sys->set_C({"y"}, [](double, ordex::MatrixRef m) { m(0, 0) = 1.0; });
+  return sys;
+}
+
+/// A bank of COUNT uncoupled oscillators q_i'' + DAMPING q_i' + w_i^2 q_i = u_i with w_i = 0.5,
+/// 0.6, ...: 2 COUNT states named q1, p1, q2, p2, ...; inputs u1, u2, ... (one per oscillator,
+/// on its p) when DRIVEN. The states' names and sizes make reports of many states testable.
+inline ordex::FunctionSystem oscillator_bank(int count, double damping, bool driven) {
+  std::vector<std::string> names, inputs;
+  for (int i = 1; i <= count; ++i) {
+    names.push_back("q" + std::to_string(i));
+    names.push_back("p" + std::to_string(i));
+    inputs.push_back("u" + std::to_string(i));
+  }
+  ordex::FunctionSystem sys(names, std::to_string(count) + " oscillators");
+  sys.set_A([count, damping](double, ordex::MatrixRef a) {
+    a.setZero();
+    for (int i = 0; i < count; ++i) {
+      const double w = 0.5 + 0.1 * i;
+      a(2 * i, 2 * i + 1) = 1;
+      a(2 * i + 1, 2 * i) = -w * w;
+      a(2 * i + 1, 2 * i + 1) = -damping;
+    }
+  });
+  if (driven)
+    sys.set_B(inputs, [count](double, ordex::MatrixRef b) {
+      b.setZero();
+      for (int i = 0; i < count; ++i) b(2 * i + 1, i) = 1;
+    });
   return sys;
 }
 

@@ -13,6 +13,7 @@
 #include "io/errors.hpp"
 #include "model/function_system.hpp"
 #include "model/model_file.hpp"
+#include "job_support.hpp"
 
 namespace {
 
@@ -28,29 +29,7 @@ Eigen::Matrix2d cart_reachability(double t, double g = 1) {
 }
 
 /// Twenty uncoupled lightly damped oscillators, each driven by its own input: forty states.
-ordex::FunctionSystem chain40() {
-  std::vector<std::string> names, inputs;
-  for (int i = 1; i <= 20; ++i) {
-    names.push_back("q" + std::to_string(i));
-    names.push_back("p" + std::to_string(i));
-    inputs.push_back("u" + std::to_string(i));
-  }
-  ordex::FunctionSystem sys(names, "twenty oscillators");
-  sys.set_A([](double, MatrixRef a) {
-    a.setZero();
-    for (int i = 0; i < 20; ++i) {
-      const double w = 0.5 + 0.1 * i;
-      a(2 * i, 2 * i + 1) = 1;
-      a(2 * i + 1, 2 * i) = -w * w;
-      a(2 * i + 1, 2 * i + 1) = -0.05;
-    }
-  });
-  sys.set_B(inputs, [](double, MatrixRef b) {
-    b.setZero();
-    for (int i = 0; i < 20; ++i) b(2 * i + 1, i) = 1;
-  });
-  return sys;
-}
+ordex::FunctionSystem chain40() { return ordex_test::oscillator_bank(20, 0.05, true); }
 
 ordex::GramianJobOptions tight(ordex::GramianKind kind) {
   ordex::GramianJobOptions o;

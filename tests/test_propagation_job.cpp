@@ -12,6 +12,7 @@
 #include "io/errors.hpp"
 #include "model/function_system.hpp"
 #include "model/model_file.hpp"
+#include "job_support.hpp"
 #include "propagation/propagate_report.hpp"
 
 namespace {
@@ -34,23 +35,7 @@ ordex::FunctionSystem oscillator(double w) {
 
 /// Twenty uncoupled oscillators with frequencies 0.5, 0.6, ..., 2.4: forty states named q1, p1,
 /// q2, p2, ...
-ordex::FunctionSystem chain40() {
-  std::vector<std::string> names;
-  for (int i = 1; i <= 20; ++i) {
-    names.push_back("q" + std::to_string(i));
-    names.push_back("p" + std::to_string(i));
-  }
-  ordex::FunctionSystem sys(names, "twenty oscillators");
-  sys.set_A([](double, MatrixRef a) {
-    a.setZero();
-    for (int i = 0; i < 20; ++i) {
-      const double w = 0.5 + 0.1 * i;
-      a(2 * i, 2 * i + 1) = 1;
-      a(2 * i + 1, 2 * i) = -w * w;
-    }
-  });
-  return sys;
-}
+ordex::FunctionSystem chain40() { return ordex_test::oscillator_bank(20, 0.0, false); }
 
 ordex::PropagateOptions tight() {
   ordex::PropagateOptions o;

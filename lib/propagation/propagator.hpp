@@ -7,6 +7,11 @@
 //   auto maps = prop.interval_maps(times);                          // Phi(t_{k+1}, t_k)
 //
 // Steps never straddle a breakpoint of the generator. Every call adds to stats().
+//
+// Threads: a Propagator keeps its stepper's work matrices and its statistics, and its generator
+// usually evaluates a System, which is not thread-safe; one Propagator serves one thread at a
+// time. Parallel work builds one Propagator per thread on its own System::clone() (see
+// gramian_sweep.cpp), and only when System::clones_may_run_concurrently() says so.
 #include <Eigen/Dense>
 #include <functional>
 #include <memory>

@@ -171,3 +171,18 @@ TEST(EstimateApp, HelpListsTheOptions) {
   for (const char* flag : {"--noise", "--measurements", "--solver", "--sigma-csv", "--no-cross-check", "--dense"})
     EXPECT_NE(r.out.find(flag), std::string::npos) << flag;
 }
+
+TEST(EstimateApp, NumericalFailureExitsThreeWithoutOutput) {
+  // An unobserved (C = 0) fast-growing state: P grows like exp(800 t) and overflows near t = 0.88.
+  const std::string model = file("est_blow.toml", "[system]\nstates = [\"x\"]\ninputs = [\"w\"]\noutputs = [\"y\"]\n"
+                                                  "[window]\nfrom = 0\nto = 10\n[matrices]\nA = [[400]]\nB = [[1]]\n"
+                                                  "C = [[0]]\n");
+  const std::string noise = file("est_blow_noise.toml", "through = [\"w\"]\nQn = [1]\nRn = [1]\nP0 = [1]\n");
+  const std::string json = temp_dir() + "/blow.json", csv = temp_dir() + "/blow.csv";
+  auto r = run_app("ordex-estimate", "--model " + model + " --noise " + noise + " --json " + json + " --csv " + csv);
+  EXPECT_EQ(r.exit_code, 3) << r.err;
+  EXPECT_EQ(ordex_test::line_count(r.err), 1) << r.err;
+  EXPECT_NE(r.err.find("not finite"), std::string::npos) << r.err;
+  EXPECT_FALSE(file_exists(json));
+  EXPECT_FALSE(file_exists(csv));
+}

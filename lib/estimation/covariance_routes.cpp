@@ -82,9 +82,8 @@ struct CovarianceRoute::Impl {
         1, static_cast<int>(std::ceil(dense_intervals * (b - a) / std::max(t1 - t0, 1e-300))));
     std::vector<std::size_t> index;
     const std::vector<double> grid = dense_grid(times, intervals, sys.breakpoints_between(a, b), index);
-    // Which output (if any) lands on each node of the grid.
-    std::vector<long> output_at(grid.size(), -1);
-    for (std::size_t k = 1; k < index.size(); ++k) output_at[index[k]] = static_cast<long>(k);
+    std::size_t next = 1;  // the next output time to hand out; INDEX is its node, ascending
+    while (next < index.size() && index[next] == 0) visit(next++, P0);
     Eigen::MatrixXd P = 0.5 * (P0 + P0.transpose()), X(n, n), Y(n, n);
     Eigen::PartialPivLU<Eigen::MatrixXd> lu(n);
     prop->for_each_interval(grid, [&](std::size_t i, const Eigen::MatrixXd& S) {
@@ -100,7 +99,8 @@ struct CovarianceRoute::Impl {
       P = lu.solve(Y.transpose()).transpose();
       P = (0.5 * (P + P.transpose())).eval();  // eval: in place it would alias
       if (!P.allFinite()) throw NumericalError("P (Hamiltonian route) is not finite at t = " + format_number(t));
-      if (output_at[i + 1] >= 0) visit(static_cast<std::size_t>(output_at[i + 1]), P);
+      // Every output time on this node (two only when closer than the grid's merge distance).
+      while (next < index.size() && index[next] == i + 1) visit(next++, P);
     });
   }
 };

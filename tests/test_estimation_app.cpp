@@ -186,3 +186,18 @@ TEST(EstimateApp, NumericalFailureExitsThreeWithoutOutput) {
   EXPECT_FALSE(file_exists(json));
   EXPECT_FALSE(file_exists(csv));
 }
+
+TEST(EstimateApp, OutputsNamingTheNoiseFileOrScheduleAreRefused) {
+  const std::string noise = file("keep_noise.toml", "through = [\"heave\"]\nQn = [0.01]\nRn = [0.05, 0.004]\nP0 = [1, 1]\n");
+  const std::string plan = file("keep_plan.toml", "[[measurement]]\noutputs = [\"depth_gauge\"]\nevery = 10\nRn = [0.1]\n");
+  const std::string before_noise = ordex_test::read_file(noise), before_plan = ordex_test::read_file(plan);
+  const std::string args = "--model " + ordex_test::model_path("sled_depth.toml") + " --noise " + noise +
+                           " --measurements " + plan;
+  for (const std::string& out : {" --csv " + noise, " --sigma-csv " + plan, " --json " + noise}) {
+    auto r = run_app("ordex-estimate", args + out);
+    EXPECT_EQ(r.exit_code, 2) << out << "\n" << r.err;
+    EXPECT_NE(r.err.find("is an input of this run"), std::string::npos) << r.err;
+  }
+  EXPECT_EQ(ordex_test::read_file(noise), before_noise);
+  EXPECT_EQ(ordex_test::read_file(plan), before_plan);
+}

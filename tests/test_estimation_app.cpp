@@ -201,3 +201,21 @@ TEST(EstimateApp, OutputsNamingTheNoiseFileOrScheduleAreRefused) {
   EXPECT_EQ(ordex_test::read_file(noise), before_noise);
   EXPECT_EQ(ordex_test::read_file(plan), before_plan);
 }
+
+TEST(EstimateApp, FailedCrossCheckIsAWarningAndTheResultsAreWritten) {
+  // A fast stable state (a = -400) and one Hamiltonian interval over the whole window: the
+  // Hamiltonian's exp(400 t) overflows, the ODE route does not. Steady state of the scalar
+  // filter: p = (a + sqrt(a^2 + c^2 q / r)) r / c^2 (test_estimation_filter.cpp).
+  const std::string model = file("est_fast.toml", "[system]\nstates = [\"x\"]\ninputs = [\"w\"]\noutputs = [\"y\"]\n"
+                                                  "[window]\nfrom = 0\nto = 10\n[matrices]\nA = [[-400]]\nB = [[1]]\n"
+                                                  "C = [[1]]\n");
+  const std::string noise = file("est_fast_noise.toml", "through = [\"w\"]\nQn = [1]\nRn = [1]\nP0 = [1]\n");
+  auto r = run_app("ordex-estimate", "--model " + model + " --noise " + noise + " --samples 2 --dense 1 --json -");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  EXPECT_EQ(ordex_test::line_count(r.err), 1) << r.err;
+  EXPECT_EQ(r.err.rfind("ordex-estimate: warning: the cross-check", 0), 0u) << r.err;
+  const auto j = nlohmann::json::parse(r.out);
+  EXPECT_EQ(j["cross_check"]["status"], "failed");
+  EXPECT_TRUE(j["cross_check"]["agreement"].is_null());
+  EXPECT_NEAR(j["P_final"][0][0].get<double>(), -400 + std::sqrt(160001.0), 1e-9);
+}

@@ -70,6 +70,9 @@ struct EstimationReport {
   /// unset when not run.
   std::optional<double> agreement;
   std::string check_engine;               ///< the other route's engine
+  /// Why the cross-check failed (the other route's numerical failure); empty otherwise. The
+  /// results are the primary route's either way.
+  std::string check_failure;
   Eigen::MatrixXd P0, P_final;            ///< P(t0), P(t1) (after any update at t1)
   Eigen::VectorXd sigma_final;            ///< sqrt of the diagonal of P_final
   /// The gain schedule, L = n x p with a column per model output: the Kalman-Bucy gain
@@ -84,7 +87,8 @@ struct EstimationReport {
   std::vector<Eigen::VectorXd> sigma;
   std::size_t updates = 0;                ///< measurement updates applied
 
-  /// The summary: the common header, kind, solver, cross_check = {solver, engine, agreement},
+  /// The summary: the common header, kind, solver, cross_check = {solver, status (ok or failed),
+  /// engine, agreement, reason} (null when not run),
   /// noise = {source, enters_through}, schedule = {source, updates}, states, outputs, P0,
   /// P_final, sigma_final (in state order), L0 (the first gain, null when none),
   /// gain_schedule = {times, L}, stats. The app adds "app" and "caution".

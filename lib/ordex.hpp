@@ -32,6 +32,11 @@
 #include "riccati/riccati_solver.hpp"
 #include "riccati/weights.hpp"
 
+// Estimation: the Kalman-Bucy filter and covariance analysis on a sensor schedule.
+#include "estimation/estimate.hpp"
+#include "estimation/noise.hpp"
+#include "estimation/sensor_schedule.hpp"
+
 // Forced response to input histories and discrete-time models.
 #include "response/discretize.hpp"
 #include "response/input_history.hpp"

@@ -6,6 +6,7 @@
 #include "io/errors.hpp"
 #include "io/input_file.hpp"
 #include "riccati/time_expression.hpp"
+#include "riccati/weight_reading.hpp"
 
 namespace ordex {
 
@@ -76,8 +77,12 @@ double entry_value(const toml::node& node, const std::string& what, std::shared_
   throw InputError(what + ": expected a number or an expression string");
 }
 
+}  // namespace
+
+namespace weight_detail {
+
 // Reads KEY as a ROWS x COLS matrix (list of rows) or, when square, a flat list of the diagonal.
-WeightMatrix read_matrix(const toml::node& node, const std::string& path, const std::string& key,
+WeightMatrix read_weight_matrix(const toml::node& node, const std::string& path, const std::string& key,
                          int rows, int cols) {
   const std::string name = where(path, key);
   const toml::array* arr = node.as_array();
@@ -126,29 +131,34 @@ WeightMatrix read_matrix(const toml::node& node, const std::string& path, const 
   return WeightMatrix::function(rows, cols, fill, name);
 }
 
-}  // namespace
-
-Weights load_weights(const std::string& path, int n, int m) {
-  const std::string text = read_text_file(path, "weights file", input_limits().max_toml_bytes);
-  toml::table table;
+toml::table parse_toml_text(const std::string& text, const std::string& path) {
   try {
-    table = toml::parse(text, path);
+    return toml::parse(text, path);
   } catch (const toml::parse_error& e) {
     throw InputError(path + ":" + std::to_string(e.source().begin.line) + ": not valid TOML: " +
                      std::string(e.description()));
   }
+}
+
+}  // namespace weight_detail
+
+using namespace weight_detail;
+
+Weights load_weights(const std::string& path, int n, int m) {
+  const std::string text = read_text_file(path, "weights file", input_limits().max_toml_bytes);
+  const toml::table table = parse_toml_text(text, path);
   Weights w = default_weights(n, m);
   w.source = path;
   for (const auto& [k, node] : table) {
     const std::string key(k.str());
     if (key == "Q")
-      w.Q = read_matrix(node, path, key, n, n);
+      w.Q = read_weight_matrix(node, path, key, n, n);
     else if (key == "R")
-      w.R = read_matrix(node, path, key, m, m);
+      w.R = read_weight_matrix(node, path, key, m, m);
     else if (key == "Qf")
-      w.Qf = read_matrix(node, path, key, n, n);
+      w.Qf = read_weight_matrix(node, path, key, n, n);
     else if (key == "N") {
-      w.N = read_matrix(node, path, key, n, m);
+      w.N = read_weight_matrix(node, path, key, n, m);
       w.has_cross = true;
     } else {
       throw InputError(path + ": unknown key " + quote_clipped(key) + " (a weights file has Q, R, Qf and N)");
@@ -185,24 +195,27 @@ void require_size(const WeightMatrix& w, int rows, int cols, const std::string& 
                      ", expected " + std::to_string(rows) + " x " + std::to_string(cols));
 }
 
-void require_symmetric(const Eigen::MatrixXd& x, const WeightMatrix& w, double t, double tol) {
+}  // namespace
+
+namespace weight_detail {
+
+void require_symmetric(const Eigen::MatrixXd& x, const std::string& name, double t, double tol) {
   const double scale = std::max(1.0, x.cwiseAbs().maxCoeff());
   Eigen::Index i = 0, j = 0;
   const double gap = (x - x.transpose()).cwiseAbs().maxCoeff(&i, &j);
   if (!(gap <= tol * scale))
-    throw InputError(w.name() + ": not symmetric at t = " + format_number(t) + " (entry [" + std::to_string(i + 1) +
+    throw InputError(name + ": not symmetric at t = " + format_number(t) + " (entry [" + std::to_string(i + 1) +
                      "][" + std::to_string(j + 1) + "] = " + format_number(x(i, j)) + " but [" +
                      std::to_string(j + 1) + "][" + std::to_string(i + 1) + "] = " + format_number(x(j, i)) + ")");
 }
 
-// Smallest and largest-magnitude eigenvalue of a symmetric matrix.
 std::pair<double, double> eigen_range(const Eigen::MatrixXd& x) {
   Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(0.5 * (x + x.transpose()), Eigen::EigenvaluesOnly);
   const Eigen::VectorXd& ev = es.eigenvalues();
   return {ev.minCoeff(), ev.cwiseAbs().maxCoeff()};
 }
 
-}  // namespace
+}  // namespace weight_detail
 
 void check_weights(const Weights& w, int n, int m, const std::vector<double>& times, double t_final,
                    const WeightCheckOptions& options) {
@@ -220,8 +233,8 @@ void check_weights(const Weights& w, int n, int m, const std::vector<double>& ti
     w.Q.eval(t, Q);
     w.R.eval(t, R);
     w.N.eval(t, N);
-    require_symmetric(Q, w.Q, t, stol);
-    require_symmetric(R, w.R, t, stol);
+    require_symmetric(Q, w.Q.name(), t, stol);
+    require_symmetric(R, w.R.name(), t, stol);
     auto [rmin, rmax] = eigen_range(R);
     if (!(rmin > dtol * std::max(1.0, rmax)))
       throw InputError(w.R.name() + ": not positive definite at t = " + format_number(t) +
@@ -239,7 +252,7 @@ void check_weights(const Weights& w, int n, int m, const std::vector<double>& ti
     if (all_constant) break;
   }
   w.Qf.eval(t_final, Qf);
-  require_symmetric(Qf, w.Qf, t_final, stol);
+  require_symmetric(Qf, w.Qf.name(), t_final, stol);
   auto [fmin, fmax] = eigen_range(Qf);
   if (!(fmin >= -dtol * std::max(1.0, fmax)))
     throw InputError(w.Qf.name() + ": not positive semidefinite (smallest eigenvalue " + format_number(fmin) + ")");

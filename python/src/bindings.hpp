@@ -1,0 +1,77 @@
+#pragma once
+// Shared by the two translation units of the extension ordex._ordex: systems.cpp (the module,
+// its errors and System) and jobs.cpp (one function per job).
+//
+// The GIL: every library call runs with the GIL released (compute below). A system built from
+// Python callables takes it back inside each callback, and says its clones may not run
+// concurrently, so the library evaluates it on one thread at a time.
+#include <pybind11/eigen.h>
+#include <pybind11/numpy.h>
+#include <pybind11/pybind11.h>
+#include <pybind11/stl.h>
+
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "ordex.hpp"
+
+namespace ordex_python {
+
+namespace py = pybind11;
+
+/// The first Python exception raised by a callback of a callable system, kept until the library
+/// call that met it has returned, so that it reaches the caller as itself.
+struct PendingError {
+  std::shared_ptr<py::error_already_set> error;
+};
+
+/// Implemented by systems whose evaluation calls back into Python.
+class CallsPython {
+ public:
+  virtual ~CallsPython() = default;
+  virtual PendingError& pending() const = 0;
+};
+
+/// Raises the pending Python exception of SYS, if any (needs the GIL).
+void raise_pending(const ordex::System& sys);
+
+/// Runs F (a library call on SYS) with the GIL released. A Python exception raised inside a
+/// callback during the call is raised in place of what the library made of it (and also when
+/// the library absorbed it, as the regulator's closed-loop check absorbs failures).
+template <class F>
+auto compute(const ordex::System& sys, F&& f) -> decltype(f()) {
+  auto run = [&] {
+    py::gil_scoped_release release;
+    return f();
+  };
+  try {
+    auto result = run();
+    raise_pending(sys);
+    return result;
+  } catch (py::error_already_set&) {
+    throw;
+  } catch (...) {
+    raise_pending(sys);
+    throw;
+  }
+}
+
+/// std::vector<double> as a 1-D numpy array (copied).
+py::array_t<double> to_array(const std::vector<double>& v);
+/// Matrices of one size as a 3-D numpy array (count, rows, cols); (0, 0, 0) when empty.
+py::array_t<double> stack(const std::vector<Eigen::MatrixXd>& ms);
+/// A Python object (array-like) as a vector of N doubles; InputError naming WHAT otherwise.
+Eigen::VectorXd to_vector(const py::handle& h, const std::string& what, long n = -1);
+/// An array-like as a 2-D matrix; InputError naming WHAT when it is not 2-D (a 1-D array is a
+/// column when AS_COLUMN, else a row).
+Eigen::MatrixXd to_matrix(const py::handle& h, const std::string& what);
+/// The result object of ordex.results.CLS from FIELDS, the report's JSON and its brief text.
+py::object make_result(const char* cls, py::dict fields, const ordex::Json& json, const std::string& brief);
+/// A Record (attribute bag) of ordex.results from FIELDS.
+py::object make_record(const char* cls, py::dict fields);
+
+void bind_systems(py::module_& m);
+void bind_jobs(py::module_& m);
+
+}  // namespace ordex_python

@@ -390,6 +390,12 @@ py::object respond(std::shared_ptr<ordex::System> sys, const py::object& times, 
                               ") where (len(times), inputs) = (" + std::to_string(tv.size()) + ", " +
                               std::to_string(m) + ") is expected");
     h = ordex::make_input_history(tv, u, "inputs");
+    // The window defaults to the span of TIMES, which the caller gave, rather than to a
+    // [window] the model file may declare (the apps' default, where the input comes from a file).
+    if (o.sample_times.empty() && samples == 0 && !o.t0 && !o.t1 && !tv.empty()) {
+      o.t0 = tv.front();
+      o.t1 = tv.back();
+    }
   }
   ordex::RespondReport r = compute(*sys, [&] { return ordex::respond(*sys, {h}, o); });
   const ordex::RunResult& run = r.runs.at(0);
@@ -535,8 +541,8 @@ times: the input's sample times (strictly increasing); inputs: array (len(times)
 is 1), u(times[k]) in row k; None for a system without inputs (its free response at times).
 x0: initial state (default zero). hold: "linear" (default) or "zoh" between samples. path:
 "exact" (default; step matrices from the engine) or "direct" (CVODE on x' = A x + B u).
-Output times: the input's sample times, or samples equally spaced, or sample_times; the window
-t0, t1 defaults to the input's span. Returns a ResponseResult: times, x (T x n), y (T x p),
+Output times: the input's sample times, or samples equally spaced, or sample_times (then give
+t0 and t1). The window t0, t1 defaults to the span of times (not to a model file's [window]). Returns a ResponseResult: times, x (T x n), y (T x p),
 x_final, y_final.)doc")
                                                      .c_str());
 

@@ -218,6 +218,14 @@ class Respond(unittest.TestCase):
             np.testing.assert_allclose(r.times, t)
         self.assertEqual(r.to_dict()["hold"], "zoh")
 
+    def test_window_is_the_span_of_times(self):
+        # The pumped oscillator's file declares [window] 0 .. 2 pi; given times rule here.
+        sys = ordex.load_model(os.path.join(MODELS, "pumped_oscillator.toml"))
+        t = np.linspace(0.0, 10.0, 21)
+        r = ordex.respond(sys, t, np.ones(21))
+        self.assertEqual(r.x.shape, (21, 2))
+        self.assertEqual(r.t1, 10.0)
+
     def test_free_response_and_input_shape(self):
         sys = ordex.load_model(os.path.join(MODELS, "mathieu.toml"))
         t = np.linspace(0, 2, 11)

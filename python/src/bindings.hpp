@@ -10,6 +10,7 @@
 #include <pybind11/pybind11.h>
 #include <pybind11/stl.h>
 
+#include <functional>
 #include <memory>
 #include <string>
 #include <vector>
@@ -36,6 +37,14 @@ class CallsPython {
 /// Raises the pending Python exception of SYS, if any (needs the GIL).
 void raise_pending(const ordex::System& sys);
 
+/// A progress callback for the library's Options that lets Ctrl-C (a notebook's interrupt)
+/// stop a long computation: now and then it takes the GIL and runs Python's signal handlers; on
+/// KeyboardInterrupt it records the interruption and throws, ending the library call, and
+/// compute() raises KeyboardInterrupt in its place.
+std::function<void(double)> interrupt_check();
+/// Raises KeyboardInterrupt when interrupt_check recorded one (needs the GIL).
+void raise_if_interrupted();
+
 /// Runs F (a library call on SYS) with the GIL released. A Python exception raised inside a
 /// callback during the call is raised in place of what the library made of it (and also when
 /// the library absorbed it, as the regulator's closed-loop check absorbs failures).
@@ -48,11 +57,13 @@ auto compute(const ordex::System& sys, F&& f) -> decltype(f()) {
   try {
     auto result = run();
     raise_pending(sys);
+    raise_if_interrupted();
     return result;
   } catch (py::error_already_set&) {
     throw;
   } catch (...) {
     raise_pending(sys);
+    raise_if_interrupted();
     throw;
   }
 }

@@ -26,6 +26,7 @@ ordex::PropagationOptions engine(const std::string& method, double rtol, double 
   o.atol = atol;
   o.max_step = max_step;
   o.max_steps = max_steps;
+  o.progress = interrupt_check();
   return o;
 }
 
@@ -362,6 +363,7 @@ py::object respond(std::shared_ptr<ordex::System> sys, const py::object& times, 
   o.path = ordex::parse_response_path(path);
   o.propagation = engine(method, rtol, atol, max_step, max_steps);
   o.samples = samples;
+  o.progress = interrupt_check();
   if (!x0.is_none()) o.x0 = to_vector(x0, "RespondOptions::x0");
   if (!t0.is_none()) o.t0 = t0.cast<double>();
   if (!t1.is_none()) o.t1 = t1.cast<double>();

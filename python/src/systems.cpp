@@ -1,5 +1,6 @@
 // The extension module ordex._ordex: its errors, the System class (from a model file, from
 // Python callables or constant arrays, from sampled arrays) and the shared conversions.
+#include <atomic>
 #include <cmath>
 #include <map>
 #include <optional>
@@ -83,6 +84,28 @@ void raise_pending(const ordex::System& sys) {
   std::shared_ptr<py::error_already_set> e = std::move(calls->pending().error);
   calls->pending().error.reset();
   throw py::error_already_set(*e);
+}
+
+namespace {
+std::atomic<bool> interrupted{false};
+}
+
+std::function<void(double)> interrupt_check() {
+  return [](double) {
+    if (interrupted.load()) throw ordex::NumericalError("interrupted (KeyboardInterrupt)");
+    py::gil_scoped_acquire gil;
+    if (PyErr_CheckSignals() != 0) {  // only the main thread runs handlers; it raised
+      PyErr_Clear();
+      interrupted.store(true);
+      throw ordex::NumericalError("interrupted (KeyboardInterrupt)");
+    }
+  };
+}
+
+void raise_if_interrupted() {
+  if (!interrupted.exchange(false)) return;
+  PyErr_SetNone(PyExc_KeyboardInterrupt);
+  throw py::error_already_set();
 }
 
 // ---- systems built in Python ----------------------------------------------------------------

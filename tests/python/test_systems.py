@@ -54,10 +54,11 @@ class Callables(unittest.TestCase):
         file_sys = ordex.load_model(PUMPED)
         py_sys = pumped_callables()
         # The same algorithm on the same plant: only rounding differs (numpy's cos against the
-        # expression evaluator's), which BDF's step control amplifies more than Magnus does.
-        for method, tol in (("magnus6", 1e-12), ("bdf", 1e-9)):
-            a = ordex.transition(file_sys, 0.0, 5.0, method=method).phi
-            b = ordex.transition(py_sys, 0.0, 5.0, method=method).phi
+        # expression evaluator's). Magnus agrees to round-off; a rounding difference can flip
+        # one of BDF's step-size decisions, so there the agreement is at the tolerance's level.
+        for method, tol in (("magnus6", 1e-12), ("bdf", 1e-7)):
+            a = ordex.transition(file_sys, 0.0, 5.0, method=method, rtol=1e-11, atol=1e-13).phi
+            b = ordex.transition(py_sys, 0.0, 5.0, method=method, rtol=1e-11, atol=1e-13).phi
             np.testing.assert_allclose(b, a, rtol=0, atol=tol, err_msg=method)
         ga = ordex.gramian(file_sys, 0.0, 3.0).gramian
         gb = ordex.gramian(py_sys, 0.0, 3.0).gramian

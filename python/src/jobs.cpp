@@ -464,7 +464,7 @@ void bind_jobs(py::module_& m) {
   const ordex::RespondOptions sd{};
   const ordex::DiscretizeOptions dd{};
 
-  m.def("transition", &transition, py::arg("system"), py::arg("t0"), py::arg("t1"), ORDEX_ENGINE_ARGS,
+  m.def("transition", &transition, py::arg("system").none(false), py::arg("t0"), py::arg("t1"), ORDEX_ENGINE_ARGS,
         py::arg("samples") = ordex::PropagateOptions{}.samples, py::arg("use_period") = kEngine.use_period,
         py::arg("liouville") = ordex::PropagateOptions{}.liouville,
         doc(R"doc(
@@ -478,7 +478,7 @@ system and a window of two periods or more, Phi is composed from the monodromy m
 liouville: run Liouville's check (default True).)doc")
             .c_str());
 
-  m.def("floquet", &floquet, py::arg("system"), py::arg("t0") = py::none(), ORDEX_ENGINE_ARGS, doc(R"doc(
+  m.def("floquet", &floquet, py::arg("system").none(false), py::arg("t0") = py::none(), ORDEX_ENGINE_ARGS, doc(R"doc(
 Floquet analysis of a periodic system: the monodromy matrix Phi(t0 + T, t0) over one period T
 (the system's period) and its eigenvalues.
 
@@ -487,7 +487,7 @@ monodromy, multipliers (complex, by decreasing modulus), exponents (log(mu) / T)
 |mu| < 1), largest_modulus, period, error_estimate.)doc")
                                                                                        .c_str());
 
-  m.def("gramian", &gramian, py::arg("system"), py::arg("t0"), py::arg("t1"),
+  m.def("gramian", &gramian, py::arg("system").none(false), py::arg("t0"), py::arg("t1"),
         py::arg("kind") = ordex::kind_name(gd.gramian.kind), py::arg("route") = ordex::route_name(gd.gramian.route),
         py::arg("samples") = gd.samples, py::arg("rank_tol") = gd.rank_tol,
         py::arg("scaling") = ordex::scaling_name(gd.gramian.scaling.mode), py::arg("units") = py::none(),
@@ -513,7 +513,7 @@ Returns a GramianResult: gramian, factor (W = L L'), eigenvalues (ascending), co
 full_rank, rank_status, weakest_direction, missing_directions.)doc")
             .c_str());
 
-  m.def("regulate", &regulate, py::arg("system"), py::arg("t0"), py::arg("t1"), py::arg("weights") = py::none(),
+  m.def("regulate", &regulate, py::arg("system").none(false), py::arg("t0"), py::arg("t1"), py::arg("weights") = py::none(),
         py::arg("x0") = py::none(), py::arg("samples") = rd.samples,
         py::arg("solver") = ordex::solver_name(rd.riccati.solver),
         py::arg("dense_intervals") = rd.riccati.dense_intervals,
@@ -532,7 +532,7 @@ Returns a RegulatorResult: P0, K0, times, gains (samples, m, n), P (samples, n, 
 cost_predicted, cost_simulated, x_final, closed_loop_status, closed_loop_phi, and caution.)doc")
                                  .c_str());
 
-  m.def("respond", &respond, py::arg("system"), py::arg("times"), py::arg("inputs") = py::none(),
+  m.def("respond", &respond, py::arg("system").none(false), py::arg("times"), py::arg("inputs") = py::none(),
         py::arg("x0") = py::none(), py::arg("hold") = ordex::hold_name(sd.hold),
         py::arg("path") = ordex::response_path_name(sd.path), py::arg("samples") = sd.samples,
         py::arg("sample_times") = py::none(), py::arg("t0") = py::none(), py::arg("t1") = py::none(),
@@ -548,7 +548,7 @@ t0 and t1). The window t0, t1 defaults to the span of times (not to a model file
 x_final, y_final.)doc")
                                                      .c_str());
 
-  m.def("discretize", &discretize, py::arg("system"), py::arg("times"), py::arg("hold") = ordex::hold_name(dd.hold),
+  m.def("discretize", &discretize, py::arg("system").none(false), py::arg("times"), py::arg("hold") = ordex::hold_name(dd.hold),
         py::arg("reuse_time_invariant") = dd.reuse_time_invariant, ORDEX_ENGINE_ARGS, doc(R"doc(
 The discrete-time model x_{k+1} = Phi_k x_k + Gamma_k u_k on the grid TIMES (strictly
 increasing), exact for the input held between samples.

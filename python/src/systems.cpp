@@ -31,7 +31,7 @@ DoubleArray as_doubles(const py::handle& h, const std::string& what) {
   DoubleArray a = DoubleArray::ensure(h);
   if (!a) {
     PyErr_Clear();
-    throw ordex::InputError(what + ": not an array of numbers (got " +
+    throw ordex::InputError(what + ": not an array of real numbers (got " +
                             std::string(py::str(py::type::of(h).attr("__name__"))) + ")");
   }
   return a;
@@ -173,11 +173,11 @@ class CallableSystem : public ordex::System, public CallsPython {
     const std::string call = shared_->where + ": " + kMatrixNames[k] + "(t = " + ordex::format_number(t) + ")";
     try {
       py::object r = s.function(t);
-      DoubleArray a = DoubleArray::ensure(r);
-      if (!a) {
+      DoubleArray a = r.is_none() ? DoubleArray() : DoubleArray::ensure(r);
+      if (r.is_none() || !a) {
         PyErr_Clear();
         throw ordex::InputError(call + " returned " + std::string(py::str(py::type::of(r).attr("__name__"))) +
-                                ", not an array of numbers");
+                                ", not an array of real numbers");
       }
       const bool scalar_ok = a.size() == 1 && s.rows * s.cols == 1;
       if (!scalar_ok && !(a.ndim() == 2 && a.shape(0) == s.rows && a.shape(1) == s.cols))

@@ -105,6 +105,12 @@ class Callables(unittest.TestCase):
         with self.assertRaises(ordex.InputError) as c:
             sys.A(0.0)
         self.assertIn("str", str(c.exception))
+        sys = ordex.System.from_callables(["x"], A=lambda t: None)
+        with self.assertRaises(ordex.InputError) as c:
+            ordex.transition(sys, 0.0, 1.0)
+        self.assertIn("NoneType", str(c.exception))
+        with self.assertRaises(TypeError):  # not a crash
+            ordex.transition(None, 0.0, 1.0)
 
     def test_construction_errors(self):
         with self.assertRaises(ordex.InputError) as c:

@@ -420,14 +420,24 @@ py::object respond(std::shared_ptr<ordex::System> sys, const py::object& times, 
 }
 
 py::object discretize(std::shared_ptr<ordex::System> sys, const py::object& times, const std::string& hold,
-                      bool reuse_time_invariant, const std::string& method, double rtol, double atol,
-                      double max_step, long max_steps) {
+                      bool reuse_time_invariant, const py::object& t0, const py::object& t1, double step,
+                      int samples, const std::string& method, double rtol, double atol, double max_step,
+                      long max_steps) {
   ordex::DiscretizeOptions o;
   o.hold = ordex::parse_hold(hold, "DiscretizeOptions::hold");
   o.propagation = engine(method, rtol, atol, max_step, max_steps);
   o.reuse_time_invariant = reuse_time_invariant;
-  const std::vector<double> tv = times_from(times, "discretize: times");
-  ordex::DiscretizeReport r = compute(*sys, [&] { return ordex::discretize(*sys, tv, o); });
+  o.step = step;
+  o.samples = samples;
+  if (times.is_none() == (t0.is_none() || t1.is_none()))
+    throw ordex::InputError("discretize: give either times or both t0 and t1");
+  std::vector<double> tv;
+  if (!times.is_none()) tv = times_from(times, "discretize: times");
+  const double a = t0.is_none() ? 0.0 : t0.cast<double>(), b = t1.is_none() ? 0.0 : t1.cast<double>();
+  const bool by_window = times.is_none();  // decided here: no Python object is touched without the GIL
+  ordex::DiscretizeReport r = compute(*sys, [&] {
+    return by_window ? ordex::discretize(*sys, a, b, o) : ordex::discretize(*sys, tv, o);
+  });
   std::vector<Eigen::MatrixXd> phi, g0, g1;
   for (const ordex::StepMatrices& s : r.model.steps) {
     phi.push_back(s.phi);
@@ -548,10 +558,14 @@ t0 and t1). The window t0, t1 defaults to the span of times (not to a model file
 x_final, y_final.)doc")
                                                      .c_str());
 
-  m.def("discretize", &discretize, py::arg("system").none(false), py::arg("times"), py::arg("hold") = ordex::hold_name(dd.hold),
-        py::arg("reuse_time_invariant") = dd.reuse_time_invariant, ORDEX_ENGINE_ARGS, doc(R"doc(
+  m.def("discretize", &discretize, py::arg("system").none(false), py::arg("times") = py::none(),
+        py::arg("hold") = ordex::hold_name(dd.hold), py::arg("reuse_time_invariant") = dd.reuse_time_invariant,
+        py::arg("t0") = py::none(), py::arg("t1") = py::none(), py::arg("step") = dd.step,
+        py::arg("samples") = dd.samples, ORDEX_ENGINE_ARGS, doc(R"doc(
 The discrete-time model x_{k+1} = Phi_k x_k + Gamma_k u_k on the grid TIMES (strictly
-increasing), exact for the input held between samples.
+increasing), exact for the input held between samples. Instead of times, t0 and t1 with step
+(t0, t0 + step, ..., t1, the last interval shorter when step does not divide the window) or,
+with step 0 (default), samples equally spaced times (default 101).
 
 hold: "zoh" (default; result.gamma, K x n x m) or "linear" (x_{k+1} = Phi_k x_k + Gamma0_k u_k
 + Gamma1_k u_{k+1}: result.gamma0 and result.gamma1). reuse_time_invariant: a constant system

@@ -261,6 +261,19 @@ class Discretize(unittest.TestCase):
         _, _, xout = signal.lsim((A3, B3, C3, D3), u, times, interp=True)
         np.testing.assert_allclose(x, xout, atol=1e-8)
 
+    def test_step_grid(self):
+        # t0 = 0, t1 = 1, step 0.3: intervals 0.3, 0.3, 0.3 and 0.1, each the zoh discretization
+        # of its own length (cont2discrete).
+        d = ordex.discretize(constant_plant(), t0=0.0, t1=1.0, step=0.3)
+        np.testing.assert_allclose(d.times, [0, 0.3, 0.6, 0.9, 1.0], atol=1e-15)
+        for k, h in enumerate(np.diff(d.times)):
+            Ad, Bd, _, _, _ = signal.cont2discrete((A3, B3, C3, D3), h, method="zoh")
+            np.testing.assert_allclose(d.phi[k], Ad, atol=1e-9)
+            np.testing.assert_allclose(d.gamma[k], Bd, atol=1e-9)
+        self.assertEqual(len(ordex.discretize(constant_plant(), t0=0.0, t1=1.0).times), 101)
+        with self.assertRaises(ordex.InputError):
+            ordex.discretize(constant_plant(), t0=0.0)
+
     def test_bad_hold(self):
         with self.assertRaises(ordex.InputError) as c:
             ordex.discretize(constant_plant(), [0, 1], hold="cubic")

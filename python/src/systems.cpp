@@ -452,6 +452,7 @@ Attributes: states, inputs, outputs (names), title, source, period (None when no
 breakpoints, window ((from, to) or None), parameters (dict, model files), time_invariant.
 Methods A(t), B(t), C(t), D(t) return the matrices at t as numpy arrays.
 )doc");
+  cls.attr("__module__") = "ordex";  // as users import it (also in the signatures below)
   cls.def_property_readonly("states", [](const System& s) { return s.info().state_names; },
                             "State names, in state order (the rows and columns of A).")
       .def_property_readonly("inputs", [](const System& s) { return s.info().input_names; },

@@ -1,6 +1,6 @@
 #pragma once
 // Shared by the two translation units of the extension ordex._ordex: systems.cpp (the module,
-// its errors and System) and jobs.cpp (one function per job).
+// its errors, System and the conversions) and jobs.cpp (one function per job).
 //
 // The GIL: every library call runs with the GIL released (compute below). A system built from
 // Python callables takes it back inside each callback, and says its clones may not run
@@ -72,10 +72,10 @@ auto compute(const ordex::System& sys, F&& f) -> decltype(f()) {
 py::array_t<double> to_array(const std::vector<double>& v);
 /// Matrices of one size as a 3-D numpy array (count, rows, cols); (0, 0, 0) when empty.
 py::array_t<double> stack(const std::vector<Eigen::MatrixXd>& ms);
-/// A Python object (array-like) as a vector of N doubles; InputError naming WHAT otherwise.
+/// An array-like (a scalar, 1-D, or 2-D with one row or column) as a vector, of N entries when
+/// N >= 0; InputError naming WHAT otherwise.
 Eigen::VectorXd to_vector(const py::handle& h, const std::string& what, long n = -1);
-/// An array-like as a 2-D matrix; InputError naming WHAT when it is not 2-D (a 1-D array is a
-/// column when AS_COLUMN, else a row).
+/// An array-like as a 2-D matrix; InputError naming WHAT when it is not 2-D.
 Eigen::MatrixXd to_matrix(const py::handle& h, const std::string& what);
 /// The result object of ordex.results.CLS from FIELDS, the report's JSON and its brief text.
 py::object make_result(const char* cls, py::dict fields, const ordex::Json& json, const std::string& brief);

@@ -400,23 +400,25 @@ py::object respond(std::shared_ptr<ordex::System> sys, const py::object& times, 
     }
   }
   ordex::RespondReport r = compute(*sys, [&] { return ordex::respond(*sys, {h}, o); });
-  const ordex::RunResult& run = r.runs.at(0);
+  ordex::RunResult& run = r.runs.at(0);
   py::dict f;
   f["t0"] = run.t0;
   f["t1"] = run.t1;
   f["states"] = r.states;
   f["inputs"] = r.inputs;
   f["outputs"] = r.outputs;
+  const ordex::Json json = r.to_json();  // both before the series are moved out
+  const std::string brief = r.brief();
   f["times"] = to_array(run.times);
-  f["x"] = py::cast(run.states);
-  f["y"] = py::cast(run.outputs);
+  f["x"] = py::cast(std::move(run.states));  // moved into the array: no copy of a long run
+  f["y"] = py::cast(std::move(run.outputs));
   f["x_final"] = py::cast(run.x_final);
   f["y_final"] = py::cast(run.y_final);
   f["hold"] = ordex::hold_name(r.hold);
   f["path"] = ordex::response_path_name(r.path);
   f["method"] = r.header.method;
   f["warnings"] = r.warnings;
-  return make_result("ResponseResult", f, r.to_json(), r.brief());
+  return make_result("ResponseResult", f, json, brief);
 }
 
 py::object discretize(std::shared_ptr<ordex::System> sys, const py::object& times, const std::string& hold,

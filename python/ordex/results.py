@@ -107,7 +107,8 @@ class RegulatorResult(Result):
 
 class ResponseResult(Result):
     """ordex.respond: times (T,), x (T x n), y (T x p), x_final, y_final, t0, t1, states,
-    inputs, outputs, hold, path, method, warnings."""
+    inputs, outputs, hold, path, method, warnings, runs (the number of runs). With inputs of
+    shape (runs, T, m), x, y, x_final and y_final have a leading axis over the runs."""
 
 
 class DiscreteModelResult(Result):

@@ -370,28 +370,39 @@ py::object respond(std::shared_ptr<ordex::System> sys, const py::object& times, 
   if (!sample_times.is_none()) o.sample_times = times_from(sample_times, "RespondOptions::sample_times");
   std::vector<double> tv = times_from(times, "respond: times");
   const int m = sys->inputs();
-  ordex::InputHistory h;
+  std::vector<ordex::InputHistory> histories;
+  bool batch = false;  // inputs of shape (runs, len(times), m): results stacked over the runs
   if (inputs.is_none()) {
     if (m > 0)
       throw ordex::InputError("respond: inputs: the system has " + std::to_string(m) +
                               " inputs; give their samples (len(times) x " + std::to_string(m) + ")");
     if (tv.size() < 2) throw ordex::InputError("respond: times: at least 2 times are needed");
-    h = ordex::free_response_history(tv.front(), tv.back());
+    histories.push_back(ordex::free_response_history(tv.front(), tv.back()));
     if (o.sample_times.empty() && samples == 0) {
       o.t0 = o.t0.value_or(tv.front());
       o.t1 = o.t1.value_or(tv.back());
       o.sample_times = tv;
     }
   } else {
-    Eigen::MatrixXd u;
     py::array a = py::array::ensure(inputs);
-    if (a && a.ndim() == 1 && m == 1) u = to_vector(inputs, "respond: inputs");
-    else u = to_matrix(inputs, "respond: inputs");
-    if (u.rows() != static_cast<Eigen::Index>(tv.size()) || u.cols() != m)
-      throw ordex::InputError("respond: inputs: shape (" + std::to_string(u.rows()) + ", " + std::to_string(u.cols()) +
-                              ") where (len(times), inputs) = (" + std::to_string(tv.size()) + ", " +
-                              std::to_string(m) + ") is expected");
-    h = ordex::make_input_history(tv, u, "inputs");
+    std::vector<Eigen::MatrixXd> us;
+    if (a && a.ndim() == 3) {
+      batch = true;
+      for (py::ssize_t k = 0; k < a.shape(0); ++k)
+        us.push_back(to_matrix(a[py::int_(k)], "respond: inputs[" + std::to_string(k) + "]"));
+      if (us.empty()) throw ordex::InputError("respond: inputs: no runs (shape (0, ...))");
+    } else if (a && a.ndim() == 1 && m == 1) {
+      us.push_back(to_vector(inputs, "respond: inputs"));
+    } else {
+      us.push_back(to_matrix(inputs, "respond: inputs"));
+    }
+    for (const Eigen::MatrixXd& u : us) {
+      if (u.rows() != static_cast<Eigen::Index>(tv.size()) || u.cols() != m)
+        throw ordex::InputError("respond: inputs: shape (" + std::to_string(u.rows()) + ", " +
+                                std::to_string(u.cols()) + ") where (len(times), inputs) = (" +
+                                std::to_string(tv.size()) + ", " + std::to_string(m) + ") is expected");
+      histories.push_back(ordex::make_input_history(tv, u, "inputs[" + std::to_string(histories.size()) + "]"));
+    }
     // The window defaults to the span of TIMES, which the caller gave, rather than to a
     // [window] the model file may declare (the apps' default, where the input comes from a file).
     if (o.sample_times.empty() && samples == 0 && !o.t0 && !o.t1 && !tv.empty()) {
@@ -399,7 +410,8 @@ py::object respond(std::shared_ptr<ordex::System> sys, const py::object& times, 
       o.t1 = tv.back();
     }
   }
-  ordex::RespondReport r = compute(*sys, [&] { return ordex::respond(*sys, {h}, o); });
+  // Histories on one time grid share their step matrices (computed once for all runs).
+  ordex::RespondReport r = compute(*sys, [&] { return ordex::respond(*sys, histories, o); });
   ordex::RunResult& run = r.runs.at(0);
   py::dict f;
   f["t0"] = run.t0;
@@ -407,13 +419,28 @@ py::object respond(std::shared_ptr<ordex::System> sys, const py::object& times, 
   f["states"] = r.states;
   f["inputs"] = r.inputs;
   f["outputs"] = r.outputs;
+  f["runs"] = r.runs.size();
   const ordex::Json json = r.to_json();  // both before the series are moved out
   const std::string brief = r.brief();
   f["times"] = to_array(run.times);
-  f["x"] = py::cast(std::move(run.states));  // moved into the array: no copy of a long run
-  f["y"] = py::cast(std::move(run.outputs));
-  f["x_final"] = py::cast(run.x_final);
-  f["y_final"] = py::cast(run.y_final);
+  if (!batch) {
+    f["x"] = py::cast(std::move(run.states));  // moved into the array: no copy of a long run
+    f["y"] = py::cast(std::move(run.outputs));
+    f["x_final"] = py::cast(run.x_final);
+    f["y_final"] = py::cast(run.y_final);
+  } else {
+    std::vector<Eigen::MatrixXd> xs, ys, xf, yf;
+    for (const ordex::RunResult& k : r.runs) {
+      xs.push_back(k.states);
+      ys.push_back(k.outputs);
+      xf.push_back(k.x_final.transpose());
+      yf.push_back(k.y_final.transpose());
+    }
+    f["x"] = stack(xs);
+    f["y"] = stack(ys);
+    f["x_final"] = stack(xf).attr("reshape")(r.runs.size(), r.states.size());
+    f["y_final"] = stack(yf).attr("reshape")(r.runs.size(), r.outputs.size());
+  }
   f["hold"] = ordex::hold_name(r.hold);
   f["path"] = ordex::response_path_name(r.path);
   f["method"] = r.header.method;
@@ -552,7 +579,9 @@ cost_predicted, cost_simulated, x_final, closed_loop_status, closed_loop_phi, an
 The forced response to an input history: x(t) and y = C x + D u.
 
 times: the input's sample times (strictly increasing); inputs: array (len(times), m) (1-D when m
-is 1), u(times[k]) in row k; None for a system without inputs (its free response at times).
+is 1), u(times[k]) in row k; None for a system without inputs (its free response at times); or
+(runs, len(times), m) for several runs on the same times, which share their step matrices: then
+x, y, x_final, y_final gain a leading axis over the runs.
 x0: initial state (default zero). hold: "linear" (default) or "zoh" between samples. path:
 "exact" (default; step matrices from the engine) or "direct" (CVODE on x' = A x + B u).
 Output times: the input's sample times, or samples equally spaced, or sample_times (then give

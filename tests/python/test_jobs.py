@@ -218,6 +218,21 @@ class Respond(unittest.TestCase):
             np.testing.assert_allclose(r.times, t)
         self.assertEqual(r.to_dict()["hold"], "zoh")
 
+    def test_several_runs_match_lsim(self):
+        sys = constant_plant()
+        t = np.linspace(0.0, 4.0, 41)
+        U = np.stack([np.column_stack([np.sin(w * t), np.cos(w * t)]) for w in (0.5, 1.0, 2.0)])
+        r = ordex.respond(sys, t, U, rtol=1e-10, atol=1e-12)
+        self.assertEqual(r.runs, 3)
+        self.assertEqual(r.x.shape, (3, 41, 3))
+        self.assertEqual(r.y_final.shape, (3, 1))
+        for k in range(3):
+            _, yout, xout = signal.lsim((A3, B3, C3, D3), U[k], t, interp=True)
+            np.testing.assert_allclose(r.x[k], xout, atol=1e-7)
+            np.testing.assert_allclose(r.y[k][:, 0], yout, atol=1e-7)
+            np.testing.assert_allclose(r.x_final[k], xout[-1], atol=1e-7)
+        self.assertEqual(len(r.to_dict()["runs"]), 3)
+
     def test_window_is_the_span_of_times(self):
         # The pumped oscillator's file declares [window] 0 .. 2 pi; given times rule here.
         sys = ordex.load_model(os.path.join(MODELS, "pumped_oscillator.toml"))

@@ -12,6 +12,7 @@
 
 #include <functional>
 #include <memory>
+#include <mutex>
 #include <string>
 #include <vector>
 
@@ -45,13 +46,21 @@ std::function<void(double)> interrupt_check();
 /// Raises KeyboardInterrupt when interrupt_check recorded one (needs the GIL).
 void raise_if_interrupted();
 
-/// Runs F (a library call on SYS) with the GIL released. A Python exception raised inside a
+/// The lock of SYS: a System is used by one thread at a time (model/system.hpp), and Python
+/// threads may share one System object, so every library call on it holds this (recursive: a
+/// callback may evaluate its own system).
+std::recursive_mutex& system_lock(const ordex::System& sys);
+/// SYS shared with Python; its lock is dropped with it.
+std::shared_ptr<ordex::System> share(std::unique_ptr<ordex::System> sys);
+
+/// Runs F (a library call on SYS) with the GIL released and SYS's lock held. A Python exception raised inside a
 /// callback during the call is raised in place of what the library made of it (and also when
 /// the library absorbed it, as the regulator's closed-loop check absorbs failures).
 template <class F>
 auto compute(const ordex::System& sys, F&& f) -> decltype(f()) {
   auto run = [&] {
-    py::gil_scoped_release release;
+    py::gil_scoped_release release;  // first: a thread waiting for the lock holds no GIL
+    std::lock_guard<std::recursive_mutex> lock(system_lock(sys));
     return f();
   };
   try {

@@ -3,6 +3,8 @@
 #include <atomic>
 #include <cmath>
 #include <map>
+#include <mutex>
+#include <unordered_map>
 #include <optional>
 #include <sstream>
 
@@ -88,6 +90,26 @@ void raise_pending(const ordex::System& sys) {
 
 namespace {
 std::atomic<bool> interrupted{false};
+
+std::mutex locks_guard;
+std::unordered_map<const ordex::System*, std::unique_ptr<std::recursive_mutex>> locks;
+}  // namespace
+
+std::recursive_mutex& system_lock(const ordex::System& sys) {
+  std::lock_guard<std::mutex> guard(locks_guard);
+  std::unique_ptr<std::recursive_mutex>& m = locks[&sys];
+  if (!m) m = std::make_unique<std::recursive_mutex>();
+  return *m;
+}
+
+std::shared_ptr<ordex::System> share(std::unique_ptr<ordex::System> sys) {
+  return std::shared_ptr<ordex::System>(sys.release(), [](ordex::System* p) {
+    {
+      std::lock_guard<std::mutex> guard(locks_guard);
+      locks.erase(p);
+    }
+    delete p;
+  });
 }
 
 std::function<void(double)> interrupt_check() {
@@ -326,7 +348,7 @@ std::shared_ptr<ordex::System> from_callables(const py::object& states, const py
     s.rows = rows[k];
     s.cols = cols[k];
   }
-  return std::make_shared<CallableSystem>(std::move(info), shared);
+  return share(std::make_unique<CallableSystem>(std::move(info), shared));
 }
 
 std::shared_ptr<ordex::System> from_samples(const py::object& states, const py::object& times, const py::object& A,
@@ -398,7 +420,7 @@ std::shared_ptr<ordex::System> from_samples(const py::object& states, const py::
     info.defined_span = std::make_pair(tv.front(), tv.back());
     info.defined_by = where + " (the sample times)";
   }
-  return std::make_shared<SampledSystem>(std::move(info), std::move(tables), std::move(ncols));
+  return share(std::make_unique<SampledSystem>(std::move(info), std::move(tables), std::move(ncols)));
 }
 
 std::shared_ptr<ordex::System> load(const std::string& path, const py::object& set) {
@@ -417,7 +439,7 @@ std::shared_ptr<ordex::System> load(const std::string& path, const py::object& s
     py::gil_scoped_release release;
     sys = ordex::load_model(path, overrides);
   }
-  return std::shared_ptr<ordex::System>(std::move(sys));
+  return share(std::move(sys));
 }
 
 /// sys.A(t) etc.: the matrix at T as a numpy array.

@@ -172,6 +172,34 @@ class Callables(unittest.TestCase):
         np.testing.assert_allclose(main, expected, atol=1e-12)
 
 
+class SharedBetweenThreads(unittest.TestCase):
+    def test_one_system_two_threads(self):
+        # A System is used by one thread at a time (an expression model keeps its variables
+        # inside); Python threads sharing one object take turns, so each result equals the
+        # single-thread one exactly (without the lock this fails: the threads overwrite each
+        # other's t inside the model).
+        for sys in (ordex.load_model(PUMPED), pumped_callables()):
+            expected = ordex.transition(sys, 0.0, 200.0, use_period=False).phi
+            out, errors = [], []
+
+            def work():
+                try:
+                    for _ in range(5):
+                        out.append(ordex.transition(sys, 0.0, 200.0, use_period=False).phi)
+                except Exception as e:  # reported below
+                    errors.append(e)
+
+            threads = [threading.Thread(target=work) for _ in range(3)]
+            for th in threads:
+                th.start()
+            for th in threads:
+                th.join(timeout=300)
+            self.assertEqual(errors, [])
+            self.assertEqual(len(out), 15)
+            for phi in out:
+                np.testing.assert_array_equal(phi, expected)
+
+
 class Samples(unittest.TestCase):
     def setUp(self):
         self.times = np.linspace(0.0, 4.0, 41)

@@ -5,10 +5,12 @@
 # halt_on_error), so the test fails; the tests that run the apps run the sanitized apps.
 # The package tests (label "package") are left out: they rebuild the library without the
 # sanitizers and test the packaging, which the plain run of scripts/test.sh covers.
+# The Python package is not built (-DORDEX_PYTHON=OFF): a sanitized extension module cannot be
+# loaded by the unsanitized interpreter.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 flags="-O1 -g -fno-omit-frame-pointer -fsanitize=address,undefined -fno-sanitize-recover=all"
-cmake -S . -B build-asan -DCMAKE_BUILD_TYPE=Debug -DORDEX_TESTS=ON -DORDEX_NATIVE=OFF \
+cmake -S . -B build-asan -DCMAKE_BUILD_TYPE=Debug -DORDEX_TESTS=ON -DORDEX_NATIVE=OFF -DORDEX_PYTHON=OFF \
       -DCMAKE_CXX_FLAGS="$flags" -DCMAKE_EXE_LINKER_FLAGS="-fsanitize=address,undefined" \
       -DCMAKE_SHARED_LINKER_FLAGS="-fsanitize=address,undefined" "$@" >/dev/null
 cmake --build build-asan -j2

@@ -4,6 +4,7 @@
 #include <cmath>
 #include <fstream>
 #include <set>
+#include <utility>
 
 #include "io/csv.hpp"
 #include "io/errors.hpp"
@@ -69,29 +70,63 @@ TimeTable::TimeTable(const TableOptions& options) : options_(options) {
     values_[c].resize(static_cast<std::size_t>(rows));
     for (Eigen::Index i = 0; i < rows; ++i) values_[c][i] = csv.values(i, static_cast<Eigen::Index>(c + 1));
   }
-  if (options.interpolation == Interpolation::pchip) {
-    // Slopes of Fritsch & Butland (SIAM J. Sci. Stat. Comput. 5 (1984) 300-304): a weighted
-    // harmonic mean of the neighbouring secants, zero where they differ in sign, so the curve
-    // never overshoots the samples.
-    const std::vector<double>& x = times_;
-    const std::size_t n = x.size();
-    slopes_.resize(columns_.size());
-    for (std::size_t c = 0; c < columns_.size(); ++c) {
-      const std::vector<double>& y = values_[c];
-      std::vector<double>& s = slopes_[c];
-      s.assign(n, 0.0);
-      for (std::size_t k = 1; k + 1 < n; ++k) {
-        double h0 = x[k] - x[k - 1], h1 = x[k + 1] - x[k];
-        double d0 = (y[k] - y[k - 1]) / h0, d1 = (y[k + 1] - y[k]) / h1;
-        if (d0 == 0 || d1 == 0 || sign(d0) != sign(d1)) continue;
-        double w1 = 2 * h1 + h0, w2 = h1 + 2 * h0;
-        s[k] = (w1 + w2) / (w1 / d0 + w2 / d1);
-      }
-      double h0 = x[1] - x[0], h1 = x[2] - x[1];
-      s[0] = end_slope(h0, h1, (y[1] - y[0]) / h0, (y[2] - y[1]) / h1);
-      double hn = x[n - 1] - x[n - 2], hm = x[n - 2] - x[n - 3];
-      s[n - 1] = end_slope(hn, hm, (y[n - 1] - y[n - 2]) / hn, (y[n - 2] - y[n - 3]) / hm);
+  compute_slopes();
+}
+
+TimeTable::TimeTable(const TableOptions& options, std::vector<std::string> columns, std::vector<double> times,
+                     std::vector<std::vector<double>> values)
+    : options_(options), columns_(std::move(columns)), times_(std::move(times)), values_(std::move(values)) {
+  const std::string& what = options_.file;
+  const std::size_t min_rows = options_.interpolation == Interpolation::pchip ? 4 : 2;
+  if (times_.size() < min_rows)
+    throw InputError(what + ": " + std::to_string(times_.size()) + " sample times; " +
+                     to_string(options_.interpolation) + " interpolation needs at least " +
+                     std::to_string(min_rows));
+  for (std::size_t k = 0; k < times_.size(); ++k) {
+    if (!std::isfinite(times_[k]))
+      throw InputError(what + ": sample time " + std::to_string(k) + " is not finite");
+    if (k > 0 && !(times_[k] > times_[k - 1]))
+      throw InputError(what + ": sample times must be strictly increasing (time " + std::to_string(k) + " = " +
+                       format_number(times_[k]) + " follows " + format_number(times_[k - 1]) + ")");
+  }
+  if (values_.size() != columns_.size())
+    throw InputError(what + ": " + std::to_string(values_.size()) + " value columns for " +
+                     std::to_string(columns_.size()) + " names");
+  for (std::size_t c = 0; c < values_.size(); ++c) {
+    if (values_[c].size() != times_.size())
+      throw InputError(what + ": column '" + columns_[c] + "' has " + std::to_string(values_[c].size()) +
+                       " samples for " + std::to_string(times_.size()) + " times");
+    for (std::size_t k = 0; k < times_.size(); ++k)
+      if (!std::isfinite(values_[c][k]))
+        throw InputError(what + ": " + columns_[c] + " at sample " + std::to_string(k) + " (t = " +
+                         format_number(times_[k]) + ") is not finite");
+  }
+  compute_slopes();
+}
+
+void TimeTable::compute_slopes() {
+  if (options_.interpolation != Interpolation::pchip) return;
+  // Slopes of Fritsch & Butland (SIAM J. Sci. Stat. Comput. 5 (1984) 300-304): a weighted
+  // harmonic mean of the neighbouring secants, zero where they differ in sign, so the curve
+  // never overshoots the samples.
+  const std::vector<double>& x = times_;
+  const std::size_t n = x.size();
+  slopes_.resize(columns_.size());
+  for (std::size_t c = 0; c < columns_.size(); ++c) {
+    const std::vector<double>& y = values_[c];
+    std::vector<double>& s = slopes_[c];
+    s.assign(n, 0.0);
+    for (std::size_t k = 1; k + 1 < n; ++k) {
+      double h0 = x[k] - x[k - 1], h1 = x[k + 1] - x[k];
+      double d0 = (y[k] - y[k - 1]) / h0, d1 = (y[k + 1] - y[k]) / h1;
+      if (d0 == 0 || d1 == 0 || sign(d0) != sign(d1)) continue;
+      double w1 = 2 * h1 + h0, w2 = h1 + 2 * h0;
+      s[k] = (w1 + w2) / (w1 / d0 + w2 / d1);
     }
+    double h0 = x[1] - x[0], h1 = x[2] - x[1];
+    s[0] = end_slope(h0, h1, (y[1] - y[0]) / h0, (y[2] - y[1]) / h1);
+    double hn = x[n - 1] - x[n - 2], hm = x[n - 2] - x[n - 3];
+    s[n - 1] = end_slope(hn, hm, (y[n - 1] - y[n - 2]) / hn, (y[n - 2] - y[n - 3]) / hm);
   }
 }
 

@@ -40,6 +40,12 @@ class TimeTable {
   /// wrong field count, t not increasing), a column name that is not a valid symbol, too few
   /// rows (2 for linear, 4 for pchip).
   explicit TimeTable(const TableOptions& options);
+  /// A table from samples in memory (the Python package's System.from_samples): VALUES[c][k] is
+  /// column COLUMNS[c] at TIMES[k]. OPTIONS.file names the table in messages (no file is read).
+  /// Throws InputError for too few or not strictly increasing times, sizes that do not match
+  /// or a value that is not finite.
+  TimeTable(const TableOptions& options, std::vector<std::string> columns, std::vector<double> times,
+            std::vector<std::vector<double>> values);
 
   const std::string& path() const { return options_.file; }
   const TableOptions& options() const { return options_; }
@@ -60,6 +66,8 @@ class TimeTable {
   double value(int column, double t) const;
 
  private:
+  /// pchip: the derivative at each sample from times_ and values_ (nothing for linear).
+  void compute_slopes();
   double clamp_time(double t) const;
   /// The interval k with times_[k] <= t <= times_[k+1] for t inside the table.
   std::size_t interval(double t) const;

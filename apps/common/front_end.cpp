@@ -14,6 +14,7 @@
 #include "io/json.hpp"
 #include "io/output_file.hpp"
 #include "model/model_file.hpp"
+#include "nonlinear/nonlinear_model.hpp"
 
 namespace ordex {
 
@@ -142,6 +143,18 @@ bool parse_command_line(int argc, char** argv, const po::options_description& de
   return true;
 }
 
+std::unique_ptr<System> load_any_model(const CommonOptions& c, const ParameterOverrides& overrides) {
+  if (!is_nonlinear_model_file(c.model)) return load_model(c.model, overrides);
+  // A nonlinear model: every app works on its linearization about the nominal, which is
+  // integrated to the run's tolerances.
+  PropagationOptions o;
+  o.method = parse_method(c.method);
+  o.rtol = c.rtol;
+  o.atol = c.atol;
+  o.validate();
+  return load_linearized_model(c.model, overrides, o);
+}
+
 AppSetup setup_from_common(const CommonOptions& c, bool need_window) {
   if (c.model.empty()) throw InputError("--model PATH is required");
   ParameterOverrides overrides;
@@ -150,7 +163,7 @@ AppSetup setup_from_common(const CommonOptions& c, bool need_window) {
     overrides[kv.first] = kv.second;
   }
   AppSetup s;
-  s.system = load_model(c.model, overrides);
+  s.system = load_any_model(c, overrides);
   const SystemInfo& info = s.system->info();
   std::optional<double> from, to;
   if (!c.from.empty()) from = evaluate_constant(c.from, "--from");

@@ -10,6 +10,7 @@
 #include <Eigen/Dense>
 #include <boost/program_options.hpp>
 #include <functional>
+#include <map>
 #include <memory>
 #include <optional>
 #include <string>
@@ -106,6 +107,10 @@ struct AppSetup {
   PropagationOptions propagation;  ///< method and tolerances, validated
   std::vector<double> samples;     ///< --samples equally spaced times in [t0, t1], ends included
 };
+
+/// The model of --model: a model file, or a nonlinear model file ([dynamics]) as its
+/// linearization about the nominal (integrated with --method, --rtol, --atol).
+std::unique_ptr<System> load_any_model(const CommonOptions& c, const std::map<std::string, double>& overrides);
 
 /// Loads the model (with --set overrides) and resolves everything else. Throws InputError.
 /// With NEED_WINDOW false a missing window is allowed (t0 = t1 = 0).

@@ -155,6 +155,30 @@ std::unique_ptr<System> load_any_model(const CommonOptions& c, const ParameterOv
   return load_linearized_model(c.model, overrides, o);
 }
 
+NonlinearSetup nonlinear_setup_from_common(const CommonOptions& c) {
+  if (c.model.empty()) throw InputError("--model PATH is required");
+  if (!is_nonlinear_model_file(c.model))
+    throw InputError(c.model + ": not a nonlinear model (it has no [dynamics] section; docs/nonlinear.md)");
+  ParameterOverrides overrides;
+  for (const std::string& s : c.sets) {
+    auto kv = parse_override(s);
+    overrides[kv.first] = kv.second;
+  }
+  NonlinearSetup s;
+  s.propagation.method = parse_method(c.method);
+  s.propagation.rtol = c.rtol;
+  s.propagation.atol = c.atol;
+  s.propagation.validate();
+  s.model = load_nonlinear_model(c.model, overrides, s.propagation);
+  s.t0 = c.from.empty() ? s.model.nominal->first_time() : evaluate_constant(c.from, "--from");
+  s.t1 = c.to.empty() ? s.model.nominal->last_time() : evaluate_constant(c.to, "--to");
+  if (!(s.t1 > s.t0) || s.t0 < s.model.nominal->first_time() || s.t1 > s.model.nominal->last_time())
+    throw InputError("--from/--to: [" + format_number(s.t0) + ", " + format_number(s.t1) +
+                     "] must run forward inside the nominal's window [" + format_number(s.model.nominal->first_time()) +
+                     ", " + format_number(s.model.nominal->last_time()) + "]");
+  return s;
+}
+
 AppSetup setup_from_common(const CommonOptions& c, bool need_window) {
   if (c.model.empty()) throw InputError("--model PATH is required");
   ParameterOverrides overrides;

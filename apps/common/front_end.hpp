@@ -21,6 +21,7 @@
 #include "io/output_file.hpp"
 #include "model/system.hpp"
 #include "model/time_grid.hpp"
+#include "nonlinear/nonlinear_model.hpp"
 #include "propagation/options.hpp"
 
 namespace ordex {
@@ -136,6 +137,16 @@ std::function<void(double)> progress_reporter(const std::string& app, std::ostre
 /// The former name of progress_reporter.
 inline std::function<void(double)> terminal_progress(const std::string& app) { return progress_reporter(app); }
 
+
+/// A nonlinear model from the common options (--model, --set, --from/--to, --method, --rtol,
+/// --atol): the model with its nominal, the window (default the model's) and the options.
+struct NonlinearSetup {
+  NonlinearModel model;
+  double t0 = 0, t1 = 0;
+  PropagationOptions propagation;
+};
+/// Throws InputError when --model is not a nonlinear model file ([dynamics]).
+NonlinearSetup nonlinear_setup_from_common(const CommonOptions& c);
 
 /// The caution printed with results that can drive hardware (gains, steering inputs).
 extern const char* const kHardwareCaution;

@@ -34,7 +34,7 @@ void write_run_csv(const std::string& path, const RunSummary& r, const SimulateR
 int main(int argc, char** argv) {
   return ordex::run_app("ordex-simulate", [&] {
     CommonOptions c;
-    std::string dx0, gains, u_min, u_max, disperse;
+    std::string dx0, gains, u_min, u_max, disperse, disturbance;
     int runs = 1, threads = 0;
     unsigned long long seed = 1;
     po::options_description desc("Options");
@@ -43,6 +43,9 @@ int main(int argc, char** argv) {
         ("dx0", po::value(&dx0)->value_name("V"), "initial deviation from the nominal, comma-separated (default zero)")
         ("gains", po::value(&gains)->value_name("PATH"), "fly the closed loop u = u_n - K(t) (x - x_n) with the gain "
          "schedule of ordex-regulate (t,K_1_1,...,K_m_n; linear between rows); default open loop (u = u_n)")
+        ("disturbance", po::value(&disturbance)->value_name("PATH"), "a disturbance input history (CSV: t and "
+         "columns named after inputs, any of them; linear between rows, held outside) added to the input after the "
+         "limits")
         ("u-min", po::value(&u_min)->value_name("V"), "lower input limits (saturation), one per input")
         ("u-max", po::value(&u_max)->value_name("V"), "upper input limits (saturation), one per input")
         ("disperse", po::value(&disperse)->value_name("PATH"), "dispersions (TOML): [initial_state] and [parameters], "
@@ -67,7 +70,7 @@ int main(int argc, char** argv) {
     const int n = static_cast<int>(info.state_names.size()), m = static_cast<int>(info.input_names.size());
     const bool csv_folder = runs > 1 && !c.csv.empty();
     if (csv_folder && c.csv == "-") throw InputError("--csv: several runs need a folder, not -");
-    check_output_paths({c.json, csv_folder ? std::string() : c.csv}, [&] { std::vector<std::string> f = info.files_read; for (const auto& e : {gains, disperse}) if (!e.empty()) f.push_back(e); return f; }());
+    check_output_paths({c.json, csv_folder ? std::string() : c.csv}, [&] { std::vector<std::string> f = info.files_read; for (const auto& e : {gains, disperse, disturbance}) if (!e.empty()) f.push_back(e); return f; }());
     SimulateOptions o;
     o.from = s.t0;
     o.to = s.t1;
@@ -77,6 +80,7 @@ int main(int argc, char** argv) {
     if (!u_min.empty()) o.u_min = parse_vector(u_min, m, "--u-min", "inputs");
     if (!u_max.empty()) o.u_max = parse_vector(u_max, m, "--u-max", "inputs");
     if (!gains.empty()) o.gains = std::make_shared<const GainSchedule>(read_gain_schedule(gains, info));
+    if (!disturbance.empty()) o.disturbance = std::make_shared<const SampledInput>(read_disturbance(disturbance, info));
     if (!disperse.empty()) o.dispersions = read_dispersions(disperse, info);
     o.runs = runs;
     o.seed = seed;

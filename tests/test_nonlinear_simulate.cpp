@@ -288,3 +288,66 @@ TEST(NonlinearSimulate, RegulatorDesignedOnTheLinearizationHoldsTheNonlinearChas
   }
   EXPECT_LT(j["statistics"]["linear_gap_max"].get<double>(), 1e-3);
 }
+
+// x' = x^2 blows up at t = 1/x0 (closed form x0/(1 - x0 t)): dispersed runs that start above 0.5
+// cannot reach t = 2 and are recorded as failed; the batch goes on and the others complete.
+TEST(NonlinearSimulate, AFailingRunIsRecordedAndTheBatchGoesOn) {
+  const std::string path = write_model("blowup.toml", R"M(
+[system]
+states = ["x"]
+[window]
+from = 0
+to = 2
+[dynamics]
+f = ["x^2"]
+[nominal]
+x0 = [0.1]
+)M");
+  const std::string disp = temp_dir() + "/blowup_disp.toml";
+  write_file(disp, "[initial_state]\nx = { half_width = 1.0 }\n");
+  RunResult r = run_app("ordex-simulate", "--model " + path + " --disperse " + disp + " --runs 12 --seed 5 --json -");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const Json j = Json::parse(r.out);
+  int failed = 0;
+  for (const Json& run : j["runs"]) {
+    const double x0 = 0.1 + run["dx0"][0].get<double>();
+    EXPECT_EQ(run["ok"].get<bool>(), x0 < 0.5) << "x0 = " << x0;  // 1/x0 > 2 completes
+    if (!run["ok"].get<bool>()) {
+      ++failed;
+      EXPECT_FALSE(run["failure"].get<std::string>().empty());
+    } else {
+      EXPECT_NEAR(run["x_final"][0].get<double>(), x0 / (1 - 2 * x0), 1e-6 * (1 + x0 / (1 - 2 * x0)));
+    }
+  }
+  EXPECT_GT(failed, 0);
+  EXPECT_EQ(j["statistics"]["failed"], failed);
+}
+
+// A disturbance history adds to the input: x' = u with u_n = 0 and w rising linearly from 0 to
+// 1 over [0, 2], then held: x(4) = 1 (the ramp's area) + 2 = 3.
+TEST(NonlinearSimulate, DisturbanceHistoryAddsToTheInput) {
+  const std::string path = write_model("integrator_w.toml", R"M(
+[system]
+states = ["x"]
+inputs = ["u"]
+[window]
+from = 0
+to = 4
+[dynamics]
+f = ["u"]
+[nominal]
+x0 = [0]
+u = ["0"]
+)M");
+  const std::string w = temp_dir() + "/gust.csv";
+  write_file(w, "t,u\n0,0\n2,1\n");
+  RunResult r = run_app("ordex-simulate", "--model " + path + " --disturbance " + w + " --json -");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const Json j = Json::parse(r.out);
+  EXPECT_NEAR(j["x_final"][0].get<double>(), 3.0, 1e-8);
+  EXPECT_NEAR(j["peak_input"].get<double>(), 1.0, 1e-12);
+  write_file(w, "t,v\n0,0\n2,1\n");
+  r = run_app("ordex-simulate", "--model " + path + " --disturbance " + w);
+  EXPECT_EQ(r.exit_code, 2);
+  EXPECT_NE(r.err.find(w + ":1: column 'v' is not an input of the model"), std::string::npos) << r.err;
+}

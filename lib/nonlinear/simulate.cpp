@@ -7,7 +7,9 @@
 #include <sstream>
 #include <thread>
 
+#include "io/csv.hpp"
 #include "io/errors.hpp"
+#include "model/spelling.hpp"
 #include "model/time_grid.hpp"
 #include "propagation/generator.hpp"
 #include "propagation/ode_integrator.hpp"
@@ -33,6 +35,7 @@ void SimulateOptions::validate(int n, int m) const {
     throw InputError("SimulateOptions::u_min exceeds SimulateOptions::u_max for some input");
   if (gains && gains->gains.front().rows() != m)
     throw InputError("SimulateOptions::gains: " + gains->path + " does not match the model's inputs");
+  if (disturbance) disturbance->validate(m);
   if (runs > 1 && dispersions.empty())
     throw InputError("SimulateOptions::runs = " + std::to_string(runs) + " without dispersions: every run would be the same");
   propagation.validate();
@@ -80,6 +83,7 @@ RunSummary fly(const Batch& b, PlantEvaluator& plant, int k) {
   }
   Eigen::VectorXd xn(n), un(std::max(m, 1)), u(std::max(m, 1)), dx(n), du(std::max(m, 1));
   Eigen::MatrixXd K(m, n);
+  Eigen::VectorXd w(m);
   // The applied input at (t, x): nominal, feedback, limits.
   auto input = [&](double t, const double* x) {
     b.model.nominal->state(t, xn.data());
@@ -93,6 +97,10 @@ RunSummary fly(const Batch& b, PlantEvaluator& plant, int k) {
     }
     if (o.u_min.size()) u.head(m) = u.head(m).cwiseMax(o.u_min);
     if (o.u_max.size()) u.head(m) = u.head(m).cwiseMin(o.u_max);
+    if (o.disturbance) {
+      o.disturbance->value(t, w);
+      u.head(m) += w;
+    }
     du.head(m) = u.head(m) - un.head(m);
   };
   OdeProblem p;
@@ -198,6 +206,9 @@ SimulateReport simulate(const NonlinearModel& model, const SimulateOptions& o) {
   if (o.gains)
     for (double t : o.gains->times)
       if (t > t0 && t < t1) b.breakpoints.push_back(t);
+  if (o.disturbance)
+    for (double t : o.disturbance->times)
+      if (t > t0 && t < t1) b.breakpoints.push_back(t);
   std::sort(b.breakpoints.begin(), b.breakpoints.end());
   b.breakpoints.erase(std::unique(b.breakpoints.begin(), b.breakpoints.end()), b.breakpoints.end());
 
@@ -247,6 +258,25 @@ SimulateReport simulate(const NonlinearModel& model, const SimulateOptions& o) {
   for (auto& th : pool) th.join();
   rep.statistics = statistics_of(rep.runs, n);
   return rep;
+}
+
+SampledInput read_disturbance(const std::string& path, const SystemInfo& info) {
+  const int m = static_cast<int>(info.input_names.size());
+  if (m == 0) throw InputError(path + ": a disturbance needs a model with inputs");
+  CsvTable csv = read_csv(path);
+  require_time_column(csv, 1);
+  SampledInput w;
+  w.interpolation = SampleInterpolation::Linear;
+  w.times.assign(csv.values.col(0).data(), csv.values.col(0).data() + csv.values.rows());
+  w.values = Eigen::MatrixXd::Zero(csv.values.rows(), m);
+  for (std::size_t c = 1; c < csv.header.size(); ++c) {
+    auto it = std::find(info.input_names.begin(), info.input_names.end(), csv.header[c]);
+    if (it == info.input_names.end())
+      throw InputError(path + ":" + std::to_string(csv.header_line) + ": column '" + csv.header[c] +
+                       "' is not an input of the model" + did_you_mean(csv.header[c], info.input_names));
+    w.values.col(it - info.input_names.begin()) = csv.values.col(static_cast<Eigen::Index>(c));
+  }
+  return w;
 }
 
 Json RunStatistics::to_json() const {

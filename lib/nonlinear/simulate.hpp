@@ -16,6 +16,7 @@
 #include "nonlinear/nonlinear_model.hpp"
 #include "nonlinear/run_inputs.hpp"
 #include "propagation/options.hpp"
+#include "propagation/state_simulator.hpp"
 
 namespace ordex {
 
@@ -28,6 +29,9 @@ struct SimulateOptions {
   Eigen::VectorXd dx0;
   /// The gain schedule of the closed loop; null (default) flies open loop (u = u_n).
   std::shared_ptr<const GainSchedule> gains;
+  /// A disturbance added to the input after the limits (times x m samples, linear between them,
+  /// held outside): u = sat(u_n - K dx) + w(t). Null (default): none.
+  std::shared_ptr<const SampledInput> disturbance;
   /// Input limits (saturation), m values each; empty (default) means none. u_min <= u_max.
   Eigen::VectorXd u_min, u_max;
   /// Dispersions of the initial state and parameters; empty (default) means none.
@@ -89,6 +93,10 @@ struct SimulateReport {
   Json to_json() const;
   std::string brief() const;
 };
+
+/// Reads a disturbance CSV: t and columns named after inputs of INFO (any subset; the others are
+/// zero). Throws InputError naming the file and the column.
+SampledInput read_disturbance(const std::string& path, const SystemInfo& info);
 
 /// Flies the batch. Throws InputError for bad options; a run that fails is recorded, not thrown.
 SimulateReport simulate(const NonlinearModel& model, const SimulateOptions& options);

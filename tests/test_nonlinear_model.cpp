@@ -151,3 +151,76 @@ TEST(NonlinearModel, EveryAppAcceptsANonlinearModel) {
   ASSERT_EQ(r.exit_code, 0) << r.err;
   EXPECT_NE(r.out.find("linearized about its nominal"), std::string::npos) << r.out;
 }
+
+// Nominal input from a CSV: x' = x u with u_n = t (linear between rows, exact here) and x(0) = 2
+// gives x_n = 2 exp(t^2/2) (separation of variables): A = u_n = t, B = x_n.
+TEST(NonlinearModel, NominalInputCsvDrivesTheNominal) {
+  write_file(temp_dir() + "/ramp.csv", "t,u\n0,0\n0.5,0.5\n1,1\n");
+  const std::string path = write_model("ramp.toml", R"M(
+[system]
+states = ["x"]
+inputs = ["u"]
+[window]
+from = 0
+to = 1
+[dynamics]
+f = ["x*u"]
+[nominal]
+x0 = [2]
+input = "ramp.csv"
+)M");
+  PropagationOptions o;
+  o.rtol = 1e-10;
+  o.atol = 1e-12;
+  auto sys = load_linearized_model(path, {}, o);
+  for (double t : {0.0, 0.3, 0.5, 0.77, 1.0}) {
+    EXPECT_NEAR(sys->A(t)(0, 0), t, 1e-12) << "t = " << t;
+    EXPECT_NEAR(sys->B(t)(0, 0), 2 * std::exp(t * t / 2), 1e-8) << "t = " << t;
+  }
+}
+
+// Nominal trajectory from a CSV: f = -x^3 + u about x_n = 1 + t (linear rows: exact between
+// them), A = -3 x_n^2, B = 1.
+TEST(NonlinearModel, NominalTrajectoryCsvIsUsedAsGiven) {
+  write_file(temp_dir() + "/traj.csv", "t,x,u\n0,1,0\n1,2,0\n2,3,0\n");
+  const std::string path = write_model("traj.toml", R"M(
+[system]
+states = ["x"]
+inputs = ["u"]
+[dynamics]
+f = ["-x^3 + u"]
+[nominal]
+trajectory = "traj.csv"
+)M");
+  auto sys = load_linearized_model(path);
+  ASSERT_TRUE(sys->info().window.has_value());
+  EXPECT_EQ(sys->info().window->second, 2.0);
+  for (double t : {0.0, 0.5, 1.25, 2.0}) {
+    EXPECT_NEAR(sys->A(t)(0, 0), -3 * (1 + t) * (1 + t), 1e-12) << "t = " << t;
+    EXPECT_EQ(sys->B(t)(0, 0), 1.0);
+  }
+}
+
+// A Jacobian that is not finite on the nominal (d sqrt(x)/dx at x = 0) stops every app with
+// exit 2 naming the entry.
+TEST(NonlinearModel, JacobianNotFiniteOnTheNominalIsRefused) {
+  const std::string path = write_model("sqrt.toml", R"M(
+[system]
+states = ["x"]
+[window]
+from = 0
+to = 1
+[dynamics]
+f = ["sqrt(x)"]
+[nominal]
+x0 = [0]
+)M");
+  RunResult r = run_app("ordex-propagate", "--model " + path);
+  EXPECT_EQ(r.exit_code, 2) << r.err;
+  EXPECT_NE(r.err.find("not finite"), std::string::npos) << r.err;
+  EXPECT_EQ(line_count(r.err), 1) << r.err;
+  r = run_app("ordex-linearize", "--model " + path + " --csv " + temp_dir() + "/sqrt.csv");
+  EXPECT_NE(r.exit_code, 0);
+  EXPECT_NE(r.err.find("not finite"), std::string::npos) << r.err;
+  EXPECT_FALSE(file_exists(temp_dir() + "/sqrt.csv"));
+}

@@ -1,6 +1,9 @@
 #include "nonlinear/linearized_system.hpp"
 
+#include <cmath>
 #include <limits>
+
+#include "io/errors.hpp"
 
 namespace ordex {
 
@@ -45,6 +48,22 @@ void LinearizedSystem::C(double t, MatrixRef out) const {
 void LinearizedSystem::D(double t, MatrixRef out) const {
   refresh(t);
   out = d_;
+}
+
+void LinearizedSystem::check_finite_at(double t) const {
+  refresh(t);
+  const SymbolicDynamics& d = plant_->definition().dynamics;
+  auto check = [&](const Eigen::MatrixXd& M, const std::vector<SymbolicDynamics::Entry>& entries) {
+    for (const auto& e : entries)
+      if (!std::isfinite(M(e.row, e.col)))
+        throw InputError(plant_->definition().path + ": " + e.key + " = '" + e.text + "' is not finite (" +
+                         format_number(M(e.row, e.col)) + ") on the nominal at t = " + format_number(t));
+  };
+  check(a_, d.dfdx);
+  check(b_, d.dfdu);
+  check(c_, d.dhdx);
+  check(d_, d.dhdu);
+  System::check_finite_at(t);
 }
 
 std::unique_ptr<System> LinearizedSystem::clone() const {

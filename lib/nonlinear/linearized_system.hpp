@@ -21,6 +21,9 @@ class LinearizedSystem : public System {
   void C(double t, MatrixRef out) const override;
   void D(double t, MatrixRef out) const override;
   std::unique_ptr<System> clone() const override;
+  /// Throws InputError naming the Jacobian entry (its key and derivative text) that is not
+  /// finite on the nominal at T.
+  void check_finite_at(double t) const override;
   using System::A;
   using System::B;
   using System::C;

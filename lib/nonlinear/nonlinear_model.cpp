@@ -168,7 +168,11 @@ NonlinearModel NonlinearReader::load(const PropagationOptions& options) {
     TableOptions to;
     to.file = file_of(*tr, "nominal.trajectory");
     to.interpolation = interpolation;
-    trajectory = std::make_shared<const TimeTable>(to);
+    try {
+      trajectory = std::make_shared<const TimeTable>(to);
+    } catch (const InputError& e) {
+      fail("nominal.trajectory", e.what());
+    }
     info.files_read.push_back(to.file);
     if (m > 0) {
       nin.kind = NominalInputSpec::Kind::trajectory;
@@ -194,8 +198,13 @@ NonlinearModel NonlinearReader::load(const PropagationOptions& options) {
       nin.kind = NominalInputSpec::Kind::samples;
       const std::string file = file_of(*in, "nominal.input");
       info.files_read.push_back(file);
-      CsvTable csv = read_csv(file);
-      require_time_column(csv, 2);
+      CsvTable csv;
+      try {
+        csv = read_csv(file);
+        require_time_column(csv, 2);
+      } catch (const InputError& e) {
+        fail("nominal.input", e.what());
+      }
       std::vector<int> cols;
       for (const std::string& name : info.input_names) {
         auto it = std::find(csv.header.begin(), csv.header.end(), name);

@@ -224,3 +224,29 @@ x0 = [0]
   EXPECT_NE(r.err.find("not finite"), std::string::npos) << r.err;
   EXPECT_FALSE(file_exists(temp_dir() + "/sqrt.csv"));
 }
+
+// A table-driven model: f = -cl(t) x^2 + gust with cl from a [table] (linear rows, cl = 2 t) and
+// a [define] of time only (q = 3 cl), about the nominal x_n = 1 + t of a trajectory CSV. By hand:
+// A = -2 cl x_n - q = -4 t (1 + t) - 6 t, B = 1.
+TEST(NonlinearModel, TableDrivenJacobiansMatchTheHandDerivation) {
+  write_file(temp_dir() + "/coef.csv", "t,cl\n0,0\n1,2\n2,4\n");
+  write_file(temp_dir() + "/path.csv", "t,x,gust\n0,1,0\n2,3,0\n");
+  const std::string path = write_model("table_driven.toml", R"M(
+[system]
+states = ["x"]
+inputs = ["gust"]
+[table]
+file = "coef.csv"
+[define]
+q = "3*cl"
+[dynamics]
+f = ["-cl*x^2 - q*x + gust"]
+[nominal]
+trajectory = "path.csv"
+)M");
+  auto sys = load_linearized_model(path);
+  for (double t : {0.0, 0.4, 1.0, 1.7, 2.0}) {
+    EXPECT_NEAR(sys->A(t)(0, 0), -4 * t * (1 + t) - 6 * t, 1e-12) << "t = " << t;
+    EXPECT_EQ(sys->B(t)(0, 0), 1.0);
+  }
+}

@@ -233,7 +233,9 @@ SimulateReport simulate(const NonlinearModel& model, const SimulateOptions& o) {
     po.use_period = false;
     Propagator prop(g, po);
     b.phi = prop.transition(t0, t1);
-    rep.header = report_header(*lin, t0, t1, method_name(prop.method()));
+    // The header names the runs' integrator (CVODE's scheme); the prediction's method follows.
+    rep.header = report_header(*lin, t0, t1, method_name(method_of(b.ode.scheme)));
+    rep.prediction_method = method_name(prop.method());
   }
   rep.closed_loop = o.gains != nullptr;
   rep.state_names = info.state_names;
@@ -323,6 +325,7 @@ Json SimulateReport::to_json() const {
   Json j = header.to_json();
   j["mode"] = closed_loop ? "closed loop" : "open loop";
   j["threads"] = threads;
+  j["linear_prediction_method"] = prediction_method;
   j["nominal_final"] = vector_to_json(nominal_final);
   j["linear_transition"] = ordex::to_json(linear_transition);
   if (runs.size() == 1) {

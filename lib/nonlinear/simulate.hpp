@@ -89,6 +89,7 @@ struct SimulateReport {
   std::vector<RunSummary> runs;
   RunStatistics statistics;
   int threads = 1;
+  std::string prediction_method;  ///< the engine's method for Phi_cl (the header's is the runs')
   /// The header, then mode, x_final and dx_final (one run) or runs and statistics.
   Json to_json() const;
   std::string brief() const;

@@ -3,6 +3,7 @@
 // linear plant against its closed form, thread independence, saturation, bad input.
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cmath>
 #include <sstream>
 
@@ -350,4 +351,31 @@ u = ["0"]
   r = run_app("ordex-simulate", "--model " + path + " --disturbance " + w);
   EXPECT_EQ(r.exit_code, 2);
   EXPECT_NE(r.err.find(w + ":1: column 'v' is not an input of the model"), std::string::npos) << r.err;
+}
+
+// The blade with large flap deflections: the linearization written by ordex-linearize against
+// the Jacobian derived by hand from its equation, A[2][1] = -Omega^2 cos(2 beta_n),
+// A[2][2] = -gamma Omega / 8, B = gamma Omega^2 / 8, C = radius cos(beta_n), with beta_n the
+// nominal column of the same CSV.
+TEST(NonlinearSimulate, BladeFlapLinearizationMatchesTheHandDerivedJacobian) {
+  const std::string csv = temp_dir() + "/blade.csv";
+  RunResult r = run_app("ordex-linearize", "--model " + model_path("blade_flap_large.toml") + " --samples 50 --csv " + csv);
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  CsvTable t = read_csv(csv);
+  auto col = [&](const std::string& name) {
+    auto it = std::find(t.header.begin(), t.header.end(), name);
+    EXPECT_NE(it, t.header.end()) << name;
+    return static_cast<Eigen::Index>(it - t.header.begin());
+  };
+  const double Omega = 40, gamma = 6, radius = 1.1;
+  double largest_beta = 0;
+  for (Eigen::Index k = 0; k < t.values.rows(); ++k) {
+    const double beta = t.values(k, col("beta"));
+    largest_beta = std::max(largest_beta, std::abs(beta));
+    EXPECT_NEAR(t.values(k, col("A_2_1")), -Omega * Omega * std::cos(2 * beta), 1e-9 * Omega * Omega);
+    EXPECT_NEAR(t.values(k, col("A_2_2")), -gamma * Omega / 8, 1e-12);
+    EXPECT_NEAR(t.values(k, col("B_2_1")), gamma * Omega * Omega / 8, 1e-10);
+    EXPECT_NEAR(t.values(k, col("C_1_1")), radius * std::cos(beta), 1e-12);
+  }
+  EXPECT_GT(largest_beta, 0.2);  // large deflections: cos(2 beta) far from 1
 }

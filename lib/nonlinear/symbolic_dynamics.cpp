@@ -50,7 +50,6 @@ class NameCheck {
 }  // namespace
 
 SymbolicDynamics differentiate(const SymbolicModel& m) {
-  NameCheck names(m);
   // Names first, in the models' terms; defines in file order may use only earlier ones.
   // A define that uses a state or an input (or such a define) is substituted into f and h;
   // the others are functions of t, evaluated as they are.

@@ -41,3 +41,9 @@
 #include "response/discretize.hpp"
 #include "response/input_history.hpp"
 #include "response/respond.hpp"
+
+// Nonlinear plants: model files with [dynamics], the linearization about the nominal (exact
+// Jacobians), the linearize and simulate jobs.
+#include "nonlinear/linearize.hpp"
+#include "nonlinear/nonlinear_model.hpp"
+#include "nonlinear/simulate.hpp"

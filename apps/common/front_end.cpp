@@ -14,6 +14,7 @@
 #include "io/json.hpp"
 #include "io/output_file.hpp"
 #include "model/model_file.hpp"
+#include "nonlinear/nonlinear_model.hpp"
 
 namespace ordex {
 
@@ -142,6 +143,42 @@ bool parse_command_line(int argc, char** argv, const po::options_description& de
   return true;
 }
 
+std::unique_ptr<System> load_any_model(const CommonOptions& c, const ParameterOverrides& overrides) {
+  if (!is_nonlinear_model_file(c.model)) return load_model(c.model, overrides);
+  // A nonlinear model: every app works on its linearization about the nominal, which is
+  // integrated to the run's tolerances.
+  PropagationOptions o;
+  o.method = parse_method(c.method);
+  o.rtol = c.rtol;
+  o.atol = c.atol;
+  o.validate();
+  return load_linearized_model(c.model, overrides, o);
+}
+
+NonlinearSetup nonlinear_setup_from_common(const CommonOptions& c) {
+  if (c.model.empty()) throw InputError("--model PATH is required");
+  if (!is_nonlinear_model_file(c.model))
+    throw InputError(c.model + ": not a nonlinear model (it has no [dynamics] section; docs/nonlinear.md)");
+  ParameterOverrides overrides;
+  for (const std::string& s : c.sets) {
+    auto kv = parse_override(s);
+    overrides[kv.first] = kv.second;
+  }
+  NonlinearSetup s;
+  s.propagation.method = parse_method(c.method);
+  s.propagation.rtol = c.rtol;
+  s.propagation.atol = c.atol;
+  s.propagation.validate();
+  s.model = load_nonlinear_model(c.model, overrides, s.propagation);
+  s.t0 = c.from.empty() ? s.model.nominal->first_time() : evaluate_constant(c.from, "--from");
+  s.t1 = c.to.empty() ? s.model.nominal->last_time() : evaluate_constant(c.to, "--to");
+  if (!(s.t1 > s.t0) || s.t0 < s.model.nominal->first_time() || s.t1 > s.model.nominal->last_time())
+    throw InputError("--from/--to: [" + format_number(s.t0) + ", " + format_number(s.t1) +
+                     "] must run forward inside the nominal's window [" + format_number(s.model.nominal->first_time()) +
+                     ", " + format_number(s.model.nominal->last_time()) + "]");
+  return s;
+}
+
 AppSetup setup_from_common(const CommonOptions& c, bool need_window) {
   if (c.model.empty()) throw InputError("--model PATH is required");
   ParameterOverrides overrides;
@@ -150,7 +187,7 @@ AppSetup setup_from_common(const CommonOptions& c, bool need_window) {
     overrides[kv.first] = kv.second;
   }
   AppSetup s;
-  s.system = load_model(c.model, overrides);
+  s.system = load_any_model(c, overrides);
   const SystemInfo& info = s.system->info();
   std::optional<double> from, to;
   if (!c.from.empty()) from = evaluate_constant(c.from, "--from");

@@ -10,6 +10,7 @@
 #include <Eigen/Dense>
 #include <boost/program_options.hpp>
 #include <functional>
+#include <map>
 #include <memory>
 #include <optional>
 #include <string>
@@ -20,6 +21,7 @@
 #include "io/output_file.hpp"
 #include "model/system.hpp"
 #include "model/time_grid.hpp"
+#include "nonlinear/nonlinear_model.hpp"
 #include "propagation/options.hpp"
 
 namespace ordex {
@@ -107,6 +109,10 @@ struct AppSetup {
   std::vector<double> samples;     ///< --samples equally spaced times in [t0, t1], ends included
 };
 
+/// The model of --model: a model file, or a nonlinear model file ([dynamics]) as its
+/// linearization about the nominal (integrated with --method, --rtol, --atol).
+std::unique_ptr<System> load_any_model(const CommonOptions& c, const std::map<std::string, double>& overrides);
+
 /// Loads the model (with --set overrides) and resolves everything else. Throws InputError.
 /// With NEED_WINDOW false a missing window is allowed (t0 = t1 = 0).
 AppSetup setup_from_common(const CommonOptions& c, bool need_window = true);
@@ -131,6 +137,16 @@ std::function<void(double)> progress_reporter(const std::string& app, std::ostre
 /// The former name of progress_reporter.
 inline std::function<void(double)> terminal_progress(const std::string& app) { return progress_reporter(app); }
 
+
+/// A nonlinear model from the common options (--model, --set, --from/--to, --method, --rtol,
+/// --atol): the model with its nominal, the window (default the model's) and the options.
+struct NonlinearSetup {
+  NonlinearModel model;
+  double t0 = 0, t1 = 0;
+  PropagationOptions propagation;
+};
+/// Throws InputError when --model is not a nonlinear model file ([dynamics]).
+NonlinearSetup nonlinear_setup_from_common(const CommonOptions& c);
 
 /// The caution printed with results that can drive hardware (gains, steering inputs).
 extern const char* const kHardwareCaution;

@@ -51,9 +51,15 @@ std::string join(const std::vector<std::string>& v) {
 
 class ModelReader {
  public:
-  explicit ModelReader(std::string path) : path_(std::move(path)) {}
+  explicit ModelReader(std::string path, std::vector<std::string> own_sections = {})
+      : path_(std::move(path)), own_sections_(std::move(own_sections)) {}
 
   std::unique_ptr<System> load(const ParameterOverrides& overrides);
+  /// Everything but [matrices] (and the sections of OWN_SECTIONS, left to the caller).
+  ModelSpec read_parts(const ParameterOverrides& overrides) {
+    read_common(overrides);
+    return std::move(spec_);
+  }
 
  private:
   std::string at(const std::string& key) const { return path_ + ": " + key; }
@@ -61,6 +67,7 @@ class ModelReader {
     throw InputError(at(key) + ": " + what);
   }
 
+  void read_common(const ParameterOverrides& overrides);
   void parse_file();
   void check_keys(const toml::table& t, const std::string& prefix, const std::vector<std::string>& allowed);
   const toml::table* section(const std::string& name);
@@ -78,6 +85,7 @@ class ModelReader {
   void read_window();
 
   std::string path_;
+  std::vector<std::string> own_sections_;  // read by a layer above: [matrices] is then refused
   toml::table root_;
   ModelSpec spec_;
   SymbolScope parameter_scope_;  // numbers and parameters: window, period, breakpoints
@@ -434,10 +442,13 @@ void ModelReader::read_window() {
   }
 }
 
-std::unique_ptr<System> ModelReader::load(const ParameterOverrides& overrides) {
+void ModelReader::read_common(const ParameterOverrides& overrides) {
   spec_.path = path_;
   parse_file();
-  check_keys(root_, "", {"system", "window", "parameters", "define", "table", "matrices"});
+  std::vector<std::string> sections = {"system", "window", "parameters", "define", "table"};
+  if (own_sections_.empty()) sections.push_back("matrices");
+  sections.insert(sections.end(), own_sections_.begin(), own_sections_.end());
+  check_keys(root_, "", sections);
   read_system();
   read_parameters(overrides);
   SystemInfo& info = spec_.info;
@@ -459,13 +470,18 @@ std::unique_ptr<System> ModelReader::load(const ParameterOverrides& overrides) {
   read_tables();
   info.files_read.push_back(path_);
   for (const TableSpec& ts : spec_.tables) info.files_read.push_back(ts.table->path());
-  read_matrices();
+  if (own_sections_.empty()) read_matrices();
   read_window();
   for (const TableSpec& ts : spec_.tables)
     for (double t : ts.table->breakpoints()) info.breakpoints.push_back(t);
   std::sort(info.breakpoints.begin(), info.breakpoints.end());
   info.breakpoints.erase(std::unique(info.breakpoints.begin(), info.breakpoints.end()),
                          info.breakpoints.end());
+}
+
+std::unique_ptr<System> ModelReader::load(const ParameterOverrides& overrides) {
+  read_common(overrides);
+  const SystemInfo& info = spec_.info;
 
   // Entries such as 1/t or log(t) are finite only on some windows: without a [window] the
   // check waits for the window in force (System::require_defined_on, called by every job).
@@ -488,6 +504,21 @@ std::string trim(const std::string& s) {
 
 std::unique_ptr<System> load_model(const std::string& path, const ParameterOverrides& overrides) {
   return ModelReader(path).load(overrides);
+}
+
+ModelSpec read_model_parts(const std::string& path, const ParameterOverrides& overrides,
+                           const std::vector<std::string>& own_sections) {
+  return ModelReader(path, own_sections).read_parts(overrides);
+}
+
+bool model_file_has_section(const std::string& path, const std::string& section) {
+  const std::string text = read_text_file(path, "model file", input_limits().max_toml_bytes);
+  try {
+    const toml::table root = toml::parse(text, path);
+    return root.get(section) != nullptr;
+  } catch (const toml::parse_error&) {
+    return false;  // the loader that reads it reports the syntax error with line and column
+  }
 }
 
 std::pair<std::string, double> parse_override(const std::string& text) {

@@ -3,6 +3,7 @@
 #include <map>
 #include <memory>
 #include <string>
+#include <vector>
 
 #include "model/system.hpp"
 
@@ -16,6 +17,19 @@ using ParameterOverrides = std::map<std::string, double>;
 /// "models/x.toml: matrices.A[2][1]: unknown symbol 'omeg'". An override whose NAME is not in
 /// [parameters] is an error.
 std::unique_ptr<System> load_model(const std::string& path, const ParameterOverrides& overrides = {});
+
+struct ModelSpec;  // model/expression_system.hpp
+
+/// The sections every kind of model file shares ([system], [parameters] with OVERRIDES,
+/// [define] as text, [table], [window]), checked as load_model checks them, for a layer above
+/// that reads its own sections OWN_SECTIONS (for example [dynamics] and [nominal] of a nonlinear
+/// model); [matrices] is then an unknown section. The spec's matrices stay absent.
+ModelSpec read_model_parts(const std::string& path, const ParameterOverrides& overrides,
+                           const std::vector<std::string>& own_sections);
+
+/// True when PATH is a TOML file with a top-level SECTION (false for a syntax error, which the
+/// loader reports). Throws InputError when PATH cannot be read.
+bool model_file_has_section(const std::string& path, const std::string& section);
 
 /// Parses "NAME=VALUE" (VALUE a number or an expression of numbers and pi).
 /// Throws InputError naming the text on failure.

@@ -155,6 +155,15 @@ bool build_sweep(int argc, char** argv, Sweep& s) {
   if (floquet && !s.common.to.empty()) throw InputError("--to: the floquet job's window is one period from --from");
   AppSetup setup = setup_from_common(s.common, /*need_window=*/!floquet && !respond);
   s.model = std::move(setup.system);
+  const std::string flag = s.grid.empty() ? "--sample" : "--grid";
+  const std::vector<std::pair<std::string, double>> declared = s.model->info().parameters;
+  for (const std::string& name : s.points->names())
+    if (std::none_of(declared.begin(), declared.end(), [&](const auto& p) { return p.first == name; })) {
+      std::string list;
+      for (const auto& p : declared) list += (list.empty() ? "" : ", ") + p.first;
+      throw InputError(flag + " " + name + ": the model has no parameter '" + name + "' (" +
+                       (list.empty() ? std::string("it declares no [parameters]") : "its parameters: " + list) + ")");
+    }
   s.base = make_sweep_system(*s.model, s.points->names());
   const System& sys = *s.base;
   const PropagationOptions engine = setup.propagation;
@@ -176,8 +185,6 @@ bool build_sweep(int argc, char** argv, Sweep& s) {
     regulator_options.validate();
     // Each thread reads the weights itself: weights with expressions of t keep their variables inside.
     const double t0 = setup.t0, t1 = setup.t1;
-    const AppSetup* no_setup = nullptr;
-    (void)no_setup;
     auto flags = regulate_flags;
     auto options = regulator_options;
     auto vm_weights = vm.count("weights") > 0;

@@ -5,6 +5,7 @@
 #include <cmath>
 #include <cstdio>
 #include <exception>
+#include <iomanip>
 #include <limits>
 #include <mutex>
 #include <sstream>
@@ -242,7 +243,7 @@ std::string SweepReport::brief() const {
   o << " (" << points_from << "): " << points << " points, " << computed << " computed, " << resumed
     << " resumed, " << failed << " failed";
   o << " on " << (ranks > 1 ? std::to_string(ranks) + " ranks" : std::to_string(threads) + " thread" + (threads > 1 ? "s" : ""));
-  o << ", " << format_number(std::round(seconds * 100) / 100) << " s\n";
+  o << ", " << std::fixed << std::setprecision(2) << seconds << " s\n";
   for (const auto& [k, message] : first_failures) o << "  point " << k + 1 << " failed: " << message << "\n";
   return o.str();
 }

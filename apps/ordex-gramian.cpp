@@ -24,7 +24,7 @@ const char* const kAbout =
     "ill-conditioned to invert for a transfer).";
 
 ordex::FlagNames all_flags() {
-  ordex::FlagNames f = ordex::kGramianFlagNames;
+  ordex::FlagNames f = ordex::gramian_flag_names();
   f.insert(f.end(), {{"TransferOptions::x0", "--x0"},
                      {"TransferOptions::xf", "--xf"},           {"ProfileOptions::window_length", "--window-length"},
                      {"ProfileOptions::stride", "--stride"},    {"ProfileOptions::check_fraction", "--profile-check"}});

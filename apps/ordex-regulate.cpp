@@ -10,7 +10,7 @@
 using namespace ordex;
 
 namespace {
-const FlagNames& kFlags = kRegulateFlagNames;
+const FlagNames& kFlags = regulate_flag_names();
 }  // namespace
 
 int main(int argc, char** argv) {

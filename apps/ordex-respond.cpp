@@ -66,5 +66,5 @@ int main(int argc, char** argv) {
     json.commit();
     if (report_to_stdout(c)) std::cout << rep.brief();
     return 0;
-  }, kRespondFlagNames);
+  }, respond_flag_names());
 }

@@ -52,7 +52,7 @@ const char* const kAbout =
 FlagNames sweep_flag_names() {
   FlagNames f = {{"SweepOptions::grid", "--grid"}, {"SweepOptions::runs", "--runs"},
                  {"SweepOptions::sample", "--sample"}, {"SweepOptions::resume", "--resume"}};
-  for (const FlagNames* more : {&kGramianFlagNames, &kRegulateFlagNames, &kRespondFlagNames})
+  for (const FlagNames* more : {&gramian_flag_names(), &regulate_flag_names(), &respond_flag_names()})
     f.insert(f.end(), more->begin(), more->end());
   return f;
 }

@@ -3,6 +3,7 @@
 // the threads or MPI ranks, failing points recorded, resume, and bad input.
 #include <gtest/gtest.h>
 
+#include <cmath>
 #include <cstdlib>
 #include <nlohmann/json.hpp>
 #include <sstream>
@@ -200,4 +201,53 @@ TEST(SweepApp, BadInputExitsTwoNamingIt) {
   const RunResult nojob = sweep("--model " + kMathieu + " --grid q=0:1:3");
   EXPECT_EQ(nojob.exit_code, 2);
   EXPECT_NE(nojob.err.find("--job"), std::string::npos);
+}
+
+// The other jobs' key figures at every point against closed forms.
+TEST(SweepApp, GramianRegulateAndRespondFiguresMatchClosedForms) {
+  const std::string dir = temp_dir();
+  const std::string tests = ORDEX_TESTS_DIR;
+  // Double integrator p' = v, v' = g f over [0, 2]: W_c = g^2 [[T^3/3, -T^2/2], [-T^2/2, T]]
+  // (Phi(0, s) B = g (-s, 1)), eigenvalues g^2 (14 -+ sqrt(148)) / 6 at T = 2.
+  RunResult r = sweep("--model " + tests + "/data/gramian_double_integrator.toml --job gramian --grid gain=0.5:2:4 "
+                      "--rtol 1e-10 --atol 1e-14 --csv " + dir + "/g.csv");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  auto rows = csv_rows(read_file(dir + "/g.csv"));
+  ASSERT_EQ(rows.size(), 5u);
+  EXPECT_EQ(rows[0], (std::vector<std::string>{"gain", "rank", "lambda_min", "lambda_max", "condition", "weakest_p",
+                                               "weakest_v", "error"}));
+  for (std::size_t i = 1; i < rows.size(); ++i) {
+    const double g2 = std::pow(std::stod(rows[i][0]), 2);
+    EXPECT_EQ(rows[i][1], "2");
+    EXPECT_NEAR(std::stod(rows[i][2]), g2 * (14 - std::sqrt(148.0)) / 6, 1e-7 * g2);
+    EXPECT_NEAR(std::stod(rows[i][3]), g2 * (14 + std::sqrt(148.0)) / 6, 1e-7 * g2);
+  }
+  // Scalar LQR x' = a x + b u, Q = R = 1, Qf = 0 over [0, 3]: with tau = T - t the Riccati
+  // equation dp/dtau = 2 a p - b^2 p^2 + 1, p(0) = 0 has p = sinh(beta tau) / (beta cosh(beta tau)
+  // - a sinh(beta tau)), beta = sqrt(a^2 + b^2) (the scalar Riccati closed form).
+  r = sweep("--model " + tests + "/data/riccati_scalar.toml --job regulate --grid b=1:2:3 --x0 2 --csv " + dir + "/r.csv");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  rows = csv_rows(read_file(dir + "/r.csv"));
+  ASSERT_EQ(rows.size(), 4u);
+  EXPECT_EQ(rows[0], (std::vector<std::string>{"b", "p0_max_eigenvalue", "cost", "closed_loop_ok", "error"}));
+  for (std::size_t i = 1; i < rows.size(); ++i) {
+    const double a = 0.7, b = std::stod(rows[i][0]), beta = std::sqrt(a * a + b * b), tau = 3;
+    const double p0 = std::sinh(beta * tau) / (beta * std::cosh(beta * tau) - a * std::sinh(beta * tau));
+    EXPECT_NEAR(std::stod(rows[i][1]), p0, 1e-6 * p0);
+    EXPECT_NEAR(std::stod(rows[i][2]), 4 * p0, 4e-6 * p0);  // x0' P0 x0 with x0 = 2
+    EXPECT_EQ(rows[i][3], "1");
+  }
+  // Unforced x'' + a x = 0 (the pumped oscillator with q = 0) from (1, 0) over [0, 2 pi]:
+  // x = cos(w t), v = -w sin(w t), w = sqrt(a).
+  write_file(dir + "/zero.csv", "t,f\n0,0\n7,0\n");
+  r = sweep("--model " + model_path("pumped_oscillator.toml") + " --job respond --set q=0 --grid a=0.5:2:4 --x0 1,0 "
+            "--input " + dir + "/zero.csv --rtol 1e-11 --atol 1e-13 --csv " + dir + "/x.csv");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  rows = csv_rows(read_file(dir + "/x.csv"));
+  ASSERT_EQ(rows.size(), 5u);
+  for (std::size_t i = 1; i < rows.size(); ++i) {
+    const double w = std::sqrt(std::stod(rows[i][0])), t = 2 * M_PI;
+    EXPECT_NEAR(std::stod(rows[i][1]), std::cos(w * t), 1e-7);
+    EXPECT_NEAR(std::stod(rows[i][2]), -w * std::sin(w * t), 1e-7);
+  }
 }

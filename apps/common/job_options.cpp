@@ -2,10 +2,13 @@
 
 namespace ordex {
 
-const FlagNames kGramianFlagNames = {
+const FlagNames& gramian_flag_names() {
+  static const FlagNames names = {
     {"GramianOptions::kind", "--kind"},        {"GramianOptions::route", "--route"},
     {"GramianOptions::threads", "--threads"},  {"GramianJobOptions::rank_tol", "--rank-tol"},
     {"GramianJobOptions::samples", "--samples"}};
+  return names;
+}
 
 void add_gramian_options(po::options_description& desc, GramianFlags& f, GramianJobOptions& o) {
   desc.add_options()
@@ -22,10 +25,13 @@ void apply_gramian_flags(const GramianFlags& f, GramianJobOptions& o) {
   o.gramian.route = parse_route(f.route);
 }
 
-const FlagNames kRegulateFlagNames = {{"RegulatorOptions::x0", "--x0"}, {"RegulatorOptions::samples", "--samples"},
+const FlagNames& regulate_flag_names() {
+  static const FlagNames names = {{"RegulatorOptions::x0", "--x0"}, {"RegulatorOptions::samples", "--samples"},
                                       {"RegulatorOptions::check_max_steps", "--check-steps"},
                                       {"RiccatiOptions::solver", "--solver"},
                                       {"RiccatiOptions::dense_intervals", "--dense"}};
+  return names;
+}
 
 void add_regulate_options(po::options_description& desc, RegulateFlags& f, RegulatorOptions& o) {
   desc.add_options()
@@ -52,9 +58,12 @@ void apply_regulate_flags(const RegulateFlags& f, const po::variables_map& vm, c
   if (vm.count("x0")) o.x0 = parse_vector(f.x0, sys.states(), "--x0");
 }
 
-const FlagNames kRespondFlagNames = {{"RespondOptions::x0", "--x0"}, {"RespondOptions::path", "--path"},
+const FlagNames& respond_flag_names() {
+  static const FlagNames names = {{"RespondOptions::x0", "--x0"}, {"RespondOptions::path", "--path"},
                                      {"RespondOptions::t0/t1", "--from/--to"},
                                      {"RespondOptions::samples", "--samples"}};
+  return names;
+}
 
 void add_respond_options(po::options_description& desc, RespondFlags& f, bool several) {
   static const std::string one = "input history CSV with header t,<input names in model order>, t strictly increasing";

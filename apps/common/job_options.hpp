@@ -19,7 +19,8 @@ struct GramianFlags {
 void add_gramian_options(po::options_description& desc, GramianFlags& f, GramianJobOptions& o);
 /// Kind and route from F into O (throws InputError naming the field for an unknown name).
 void apply_gramian_flags(const GramianFlags& f, GramianJobOptions& o);
-extern const FlagNames kGramianFlagNames;
+/// The job's Options fields and their flags (a function: apps build their tables from it at start-up).
+const FlagNames& gramian_flag_names();
 
 /// --weights --solver --x0 --dense --check-steps --no-check of the regulator job.
 struct RegulateFlags {
@@ -30,7 +31,8 @@ void add_regulate_options(po::options_description& desc, RegulateFlags& f, Regul
 /// for SYS with the engine options of SETUP.
 void apply_regulate_flags(const RegulateFlags& f, const po::variables_map& vm, const System& sys,
                           const AppSetup& setup, RegulatorOptions& o);
-extern const FlagNames kRegulateFlagNames;
+/// The job's Options fields and their flags (a function: apps build their tables from it at start-up).
+const FlagNames& regulate_flag_names();
 
 /// --input --hold --x0 --path --no-reuse of the response job.
 struct RespondFlags {
@@ -42,6 +44,7 @@ void add_respond_options(po::options_description& desc, RespondFlags& f, bool se
 /// Hold, path, engine, reuse and x0 of F and VM into O for SYS.
 void apply_respond_flags(const RespondFlags& f, const po::variables_map& vm, const System& sys,
                          const AppSetup& setup, RespondOptions& o);
-extern const FlagNames kRespondFlagNames;
+/// The job's Options fields and their flags (a function: apps build their tables from it at start-up).
+const FlagNames& respond_flag_names();
 
 }  // namespace ordex

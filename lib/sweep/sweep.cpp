@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <atomic>
+#include <charconv>
 #include <cmath>
 #include <cstdio>
 #include <exception>
@@ -110,9 +111,10 @@ namespace {
 std::string number_text(double x) {
   if (std::isnan(x)) return "nan";
   if (std::isinf(x)) return x > 0 ? "inf" : "-inf";
+  // The shortest text that reads back to the same double (round trip), as numpy prints.
   char buf[40];
-  std::snprintf(buf, sizeof buf, "%.17g", x);
-  return buf;
+  const std::to_chars_result r = std::to_chars(buf, buf + sizeof buf, x);
+  return std::string(buf, r.ptr);
 }
 
 std::string csv_field(std::string text) {

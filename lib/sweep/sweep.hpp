@@ -4,7 +4,7 @@
 // message of its failure, become one row of a table in point order; a failing point never stops
 // the others. The table is the same, byte for byte, whatever the number of threads (or, in
 // ordex-sweep, of MPI ranks): each point depends only on its values, rows are written in order,
-// and numbers are printed with 17 significant digits.
+// and numbers are printed in their shortest round-trip form.
 //
 //   auto base = ordex::make_sweep_system(*ordex::load_model("m.toml"), points.names());
 //   ordex::run_points_on_threads(*base, factory, points, todo, 2, [&](std::size_t k, const ordex::PointResult& r) {...});
@@ -64,7 +64,8 @@ void run_points_on_threads(const ExpressionSystem& base, const SweepJobFactory& 
 
 /// The table: header "PARAMS...,FIGURES...,error" and one line per point.
 std::string sweep_header(const std::vector<std::string>& parameters, const std::vector<std::string>& figures);
-/// The row of a point without its newline: values and figures with 17 significant digits
+/// The row of a point without its newline: values and figures in the shortest text that reads
+/// back to the same double
 /// ("nan" and "inf" as numpy reads them), then the error, quoted as CSV when it must be.
 std::string sweep_row(const std::vector<double>& values, const PointResult& result);
 /// The start of sweep_row for VALUES, up to and including the comma after the last parameter:

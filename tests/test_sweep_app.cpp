@@ -178,6 +178,7 @@ TEST(SweepApp, ResumeComputesOnlyTheMissingRows) {
 TEST(SweepApp, BadInputExitsTwoNamingIt) {
   const std::string dir = temp_dir();
   const std::string base = "--model " + kMathieu + " --job floquet ";
+  const std::string model_text = read_file(kMathieu);
   struct Case {
     std::string args, expected;
   };
@@ -192,12 +193,15 @@ TEST(SweepApp, BadInputExitsTwoNamingIt) {
            {"--sample " + dir + "/bad_plan.toml --runs 3", "bad_plan.toml: q.sd: -1 is negative"},
            {"--sample " + dir + "/odd_plan.toml --runs 3", "odd_plan.toml: q.distribution"},
            {"--sample " + dir + "/bad_plan.toml", "--runs N is required"},
+           {"--grid q=0:1:3 --set q=2", "--set q: the sweep varies 'q' (--grid)"},
+           {"--grid q=0:1:3 --csv " + kMathieu, "mathieu.toml"},  // an output naming the model
            {"", "--grid NAME=FROM:TO:COUNT or --sample PATH is required"}}) {
     const RunResult r = sweep(base + c.args);
     EXPECT_EQ(r.exit_code, 2) << c.args;
     EXPECT_NE(r.err.find(c.expected), std::string::npos) << c.args << "\n" << r.err;
     EXPECT_EQ(line_count(r.err), 1) << r.err;
   }
+  EXPECT_EQ(read_file(kMathieu), model_text);
   const RunResult nojob = sweep("--model " + kMathieu + " --grid q=0:1:3");
   EXPECT_EQ(nojob.exit_code, 2);
   EXPECT_NE(nojob.err.find("--job"), std::string::npos);

@@ -47,22 +47,13 @@ PointResult evaluate_point(ExpressionSystem& sys, const SweepJob& job, const std
 
 void OrderedResults::add(std::size_t position, PointResult result) {
   if (position != next_) {
-    waiting_.emplace_back(position, std::move(result));
+    waiting_.emplace(position, std::move(result));
     return;
   }
   emit_(next_++, result);
   // Hand on whatever was waiting for this one.
-  for (bool found = true; found;) {
-    found = false;
-    for (auto it = waiting_.begin(); it != waiting_.end(); ++it)
-      if (it->first == next_) {
-        const PointResult r = std::move(it->second);
-        waiting_.erase(it);
-        emit_(next_++, r);
-        found = true;
-        break;
-      }
-  }
+  for (auto it = waiting_.begin(); it != waiting_.end() && it->first == next_; it = waiting_.erase(it))
+    emit_(next_++, it->second);
 }
 
 void run_points_on_threads(const ExpressionSystem& base, const SweepJobFactory& make_job, const SweepPoints& points,

@@ -10,6 +10,7 @@
 //   ordex::run_points_on_threads(*base, factory, points, todo, 2, [&](std::size_t k, const ordex::PointResult& r) {...});
 #include <cstddef>
 #include <functional>
+#include <map>
 #include <memory>
 #include <string>
 #include <vector>
@@ -51,7 +52,7 @@ class OrderedResults {
  private:
   Emit emit_;
   std::size_t next_ = 0;
-  std::vector<std::pair<std::size_t, PointResult>> waiting_;
+  std::map<std::size_t, PointResult> waiting_;  // finished early, by position
 };
 
 /// Runs the points TODO (indices into POINTS) on THREADS threads (each with its own clone of

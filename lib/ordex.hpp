@@ -36,3 +36,7 @@
 #include "response/discretize.hpp"
 #include "response/input_history.hpp"
 #include "response/respond.hpp"
+
+// Sweeps: one job over a parameter grid or seeded random samples, the model's parameters set
+// in place (docs/sweep.md).
+#include "sweep/sweep.hpp"

@@ -97,7 +97,8 @@ bool build_sweep(int argc, char** argv, Sweep& s) {
   RespondFlags respond_flags;
   po::options_description desc("Options");
   add_common_options(desc, s.common, "equally spaced times in the window, both ends included (gramian: the grid "
-                                     "of the block route; regulate: the gain schedule's grid)");
+                                     "of the block route; regulate: the gain schedule's grid)",
+                     "write the table: one row per point, the parameters, the key figures, then error");
   s.threads = static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
   desc.add_options()
       ("job", po::value(&s.job)->value_name("NAME"), "floquet, gramian, regulate or respond (required)")

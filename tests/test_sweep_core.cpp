@@ -3,6 +3,8 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <cstdio>
+#include <cstdlib>
 
 #include "io/errors.hpp"
 #include "job_support.hpp"
@@ -148,4 +150,23 @@ TEST(SweepCore, OrderedResultsEmitInPositionOrder) {
   OrderedResults o([&](std::size_t k, const PointResult&) { seen.push_back(k); });
   for (std::size_t k : {2, 0, 3, 1, 5, 4}) o.add(k, {});
   EXPECT_EQ(seen, (std::vector<std::size_t>{0, 1, 2, 3, 4, 5}));
+}
+
+// The model is read once: with its file and its table's file gone, parameters still change in
+// place and threads still get their copies (no file is read again, no expression re-parsed
+// from disk).
+TEST(SweepCore, ParameterChangesReadNoFile) {
+  const std::string dir = temp_dir() + "/gone";
+  ASSERT_EQ(std::system(("mkdir -p " + dir).c_str()), 0);
+  write_file(dir + "/speed.csv", "t,U\n0,10\n5,20\n10,20\n");
+  write_file(dir + "/m.toml", "[system]\nstates = [\"x\"]\n[table]\nfile = \"speed.csv\"\ninterpolation = \"linear\"\n"
+                              "[parameters]\nk = 1.0\n[matrices]\nA = [[\"-k*U\"]]\n");
+  const auto loaded = load_model(dir + "/m.toml");
+  const auto sys = make_sweep_system(*loaded, {"k"});
+  ASSERT_EQ(std::remove((dir + "/m.toml").c_str()), 0);
+  ASSERT_EQ(std::remove((dir + "/speed.csv").c_str()), 0);
+  sys->set_parameters({0.5});
+  EXPECT_EQ(sys->A(2.5)(0, 0), -0.5 * 15);  // U(2.5) = 15 by linear interpolation
+  const auto copy = sys->clone();
+  EXPECT_EQ(copy->A(7.0)(0, 0), -0.5 * 20);
 }

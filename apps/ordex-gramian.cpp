@@ -3,6 +3,7 @@
 #include <iostream>
 
 #include "common/front_end.hpp"
+#include "common/job_options.hpp"
 #include "gramian/report.hpp"
 #include "io/errors.hpp"
 
@@ -22,12 +23,14 @@ const char* const kAbout =
     "Exit status: 0 done, 2 bad input, 3 numerical failure (including a Gramian too\n"
     "ill-conditioned to invert for a transfer).";
 
-const ordex::FlagNames kFlags = {
-    {"GramianOptions::kind", "--kind"},        {"GramianOptions::route", "--route"},
-    {"GramianOptions::threads", "--threads"},  {"GramianJobOptions::rank_tol", "--rank-tol"},
-    {"GramianJobOptions::samples", "--samples"}, {"TransferOptions::x0", "--x0"},
-    {"TransferOptions::xf", "--xf"},           {"ProfileOptions::window_length", "--window-length"},
-    {"ProfileOptions::stride", "--stride"},    {"ProfileOptions::check_fraction", "--profile-check"}};
+ordex::FlagNames all_flags() {
+  ordex::FlagNames f = ordex::gramian_flag_names();
+  f.insert(f.end(), {{"TransferOptions::x0", "--x0"},
+                     {"TransferOptions::xf", "--xf"},           {"ProfileOptions::window_length", "--window-length"},
+                     {"ProfileOptions::stride", "--stride"},    {"ProfileOptions::check_fraction", "--profile-check"}});
+  return f;
+}
+const ordex::FlagNames kFlags = all_flags();
 
 }  // namespace
 
@@ -35,19 +38,15 @@ int main(int argc, char** argv) {
   return ordex::run_app("ordex-gramian", [&]() -> int {
     using namespace ordex;
     CommonOptions common;
-    std::string kind = "controllability", route = "block", x0, xf, input_out;
+    GramianFlags flags;
+    std::string x0, xf, input_out;
     GramianJobOptions o;
     ProfileOptions profile;
     po::options_description desc("Options");
     add_common_options(desc, common, "equally spaced times in the window, both ends included: the grid of the block "
                                      "route, of the transfer input and of --csv without --window-length");
+    add_gramian_options(desc, flags, o);
     desc.add_options()
-        ("kind", po::value(&kind)->value_name("K")->default_value(kind), "controllability, reachability or observability")
-        ("route", po::value(&route)->value_name("R")->default_value(route),
-         "block (Van Loan block generator on the engine) or lyapunov (Lyapunov differential "
-         "equation by CVODE; --method bdf selects BDF, otherwise Adams)")
-        ("rank-tol", po::value(&o.rank_tol)->value_name("TOL")->default_value(o.rank_tol, "1e-10"),
-         "eigenvalues at or below TOL times the largest count as zero for the rank")
         ("x0", po::value(&x0)->value_name("V"), "start state of the transfer (default zero; needs --xf)")
         ("xf", po::value(&xf)->value_name("V"), "target state of the minimum-energy transfer")
         ("input-out", po::value(&input_out)->value_name("PATH"),
@@ -65,8 +64,7 @@ int main(int argc, char** argv) {
     if (vm.count("x0") && !vm.count("xf")) throw InputError("--x0: needs --xf (the target state)");
     if (!input_out.empty() && !vm.count("xf")) throw InputError("--input-out: needs --xf (a transfer to write)");
     if (vm.count("stride") && !vm.count("window-length")) throw InputError("--stride: needs --window-length");
-    o.gramian.kind = parse_kind(kind);
-    o.gramian.route = parse_route(route);
+    apply_gramian_flags(flags, o);
     AppSetup setup = setup_from_common(common);
     require_forward_window(setup);
     const System& sys = *setup.system;

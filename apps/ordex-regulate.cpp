@@ -3,37 +3,26 @@
 #include <iostream>
 
 #include "common/front_end.hpp"
+#include "common/job_options.hpp"
 #include "io/errors.hpp"
 #include "riccati/regulator.hpp"
 
 using namespace ordex;
 
 namespace {
-const FlagNames kFlags = {{"RegulatorOptions::x0", "--x0"}, {"RegulatorOptions::samples", "--samples"},
-                          {"RegulatorOptions::check_max_steps", "--check-steps"}, {"RiccatiOptions::solver", "--solver"},
-                          {"RiccatiOptions::dense_intervals", "--dense"}};
+const FlagNames& kFlags = regulate_flag_names();
 }  // namespace
 
 int main(int argc, char** argv) {
   return run_app("ordex-regulate", [&] {
     CommonOptions common;
-    std::string weights, solver, x0, p_csv, run_csv;
+    RegulateFlags flags;
+    std::string p_csv, run_csv;
     RegulatorOptions o;
     po::options_description desc("Options");
     add_common_options(desc, common, "equally spaced times of the gain schedule (CSV rows), ends included");
+    add_regulate_options(desc, flags, o);
     desc.add_options()
-        ("weights", po::value(&weights)->value_name("PATH"), "weights file (TOML) with Q, R, Qf and optional N: "
-         "lists of rows, or flat lists meaning diagonals; entries numbers or expressions of t. Default Q = I, "
-         "R = I, Qf = 0, N = 0")
-        ("solver", po::value(&solver)->value_name("NAME")->default_value("ode"), "ode: the Riccati equation with "
-         "CVODE BDF; hamiltonian: the engine (--method) propagates the Hamiltonian one interval at a time")
-        ("x0", po::value(&x0)->value_name("V"), "initial state (comma-separated): simulate the closed loop "
-         "u = -K(t)x and report the predicted and simulated cost and the final state")
-        ("dense", po::value(&o.riccati.dense_intervals)->value_name("N")->default_value(2000), "least number of "
-         "intervals on which P is stored (K(t) between them from the cubic Hermite interpolant of P)")
-        ("check-steps", po::value(&o.check_max_steps)->value_name("N")->default_value(200000), "step budget of "
-         "each part of the closed-loop check (a part that needs more is reported failed, never ground through)")
-        ("no-check", "skip the closed-loop check (no closed-loop matrix, Floquet multipliers or simulated run)")
         ("p-csv", po::value(&p_csv)->value_name("PATH"), "also write P(t) on the --samples grid: t,P_1_1,...")
         ("response-csv", po::value(&run_csv)->value_name("PATH"), "with --x0: the closed-loop run on the --samples "
          "grid, t,<states>,<inputs> (absent when the check failed)");
@@ -53,16 +42,11 @@ int main(int argc, char** argv) {
     AppSetup setup = setup_from_common(common);
     require_forward_window(setup);
     const System& sys = *setup.system;
-    const int n = sys.states(), m = sys.inputs();
-    if (!run_csv.empty() && x0.empty()) throw InputError("--response-csv needs --x0");
-    check_output_paths({common.json, common.csv, p_csv, run_csv}, run_inputs(sys, {weights}));
-    if (vm.count("weights")) o.weights = load_weights(weights, n, m);
-    o.riccati.solver = parse_solver(solver);
-    o.riccati.propagation = setup.propagation;
+    if (!run_csv.empty() && flags.x0.empty()) throw InputError("--response-csv needs --x0");
+    check_output_paths({common.json, common.csv, p_csv, run_csv}, run_inputs(sys, {flags.weights}));
+    apply_regulate_flags(flags, vm, sys, setup, o);
     o.riccati.propagation.progress = progress_reporter("ordex-regulate");
     o.samples = common.samples;
-    o.check_closed_loop = !vm.count("no-check");
-    if (vm.count("x0")) o.x0 = parse_vector(x0, n, "--x0");
     SummaryOutput json(common.json);
     const RegulatorReport r = regulate(sys, setup.t0, setup.t1, o);
     if (!common.csv.empty()) write_gain_schedule_csv(common.csv, r);

@@ -5,6 +5,7 @@
 #include <set>
 
 #include "common/front_end.hpp"
+#include "common/job_options.hpp"
 #include "io/errors.hpp"
 #include "model/model_file.hpp"
 #include "model/model_report.hpp"
@@ -16,22 +17,12 @@ namespace fs = std::filesystem;
 int main(int argc, char** argv) {
   return run_app("ordex-respond", [&] {
     CommonOptions c;
-    std::vector<std::string> inputs;
-    std::string hold, x0, path;
+    RespondFlags flags;
+    const std::vector<std::string>& inputs = flags.inputs;
     po::options_description desc("Options");
     add_common_options(desc, c, "output times: N equally spaced in the window, both ends included (default: the "
                                 "input's own sample times)");
-    desc.add_options()
-        ("input", po::value(&inputs)->value_name("PATH")->composing(), "input history CSV with header t,<input "
-         "names in model order>, t strictly increasing; repeat for several histories (each gets its own result; "
-         "--csv then names a folder)")
-        ("hold", po::value(&hold)->value_name("zoh|linear")->default_value("linear"),
-         "the input between samples: zoh holds each sample until the next, linear interpolates")
-        ("x0", po::value(&x0)->value_name("V"), "initial state, comma-separated (default zero)")
-        ("path", po::value(&path)->value_name("exact|direct")->default_value("exact"), "exact: step matrices of "
-         "the held-input block generator, shared by histories on one time grid; direct: CVODE on "
-         "x' = A x + B u(t), a cross-check (--method adams or bdf picks its scheme)")
-        ("no-reuse", "integrate every interval even when every entry of the model is a constant");
+    add_respond_options(desc, flags, /*several=*/true);
     po::variables_map vm;
     if (!parse_command_line(argc, argv, desc, vm, "ordex-respond",
             "ordex-respond --model PATH --input PATH [--input PATH ...] [options]",
@@ -45,11 +36,7 @@ int main(int argc, char** argv) {
     const System& sys = *s.system;
     if (sys.inputs() > 0 && inputs.empty()) throw InputError("--input PATH is required: the model has inputs");
     RespondOptions o;
-    o.hold = parse_hold(hold, "--hold");
-    o.path = parse_response_path(path);
-    o.propagation = s.propagation;
-    o.reuse_time_invariant = !vm.count("no-reuse");
-    if (vm.count("x0")) o.x0 = parse_vector(x0, sys.states(), "--x0");
+    apply_respond_flags(flags, vm, sys, s, o);
     if (!c.from.empty()) o.t0 = evaluate_constant(c.from, "--from");
     if (!c.to.empty()) o.t1 = evaluate_constant(c.to, "--to");
     if (vm.count("samples") && !vm["samples"].defaulted()) o.samples = c.samples;
@@ -79,6 +66,5 @@ int main(int argc, char** argv) {
     json.commit();
     if (report_to_stdout(c)) std::cout << rep.brief();
     return 0;
-  }, {{"RespondOptions::x0", "--x0"}, {"RespondOptions::path", "--path"}, {"RespondOptions::t0/t1", "--from/--to"},
-      {"RespondOptions::samples", "--samples"}, {"PropagationOptions::method", "--method"}});
+  }, respond_flag_names());
 }

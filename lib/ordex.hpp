@@ -47,3 +47,6 @@
 #include "nonlinear/linearize.hpp"
 #include "nonlinear/nonlinear_model.hpp"
 #include "nonlinear/simulate.hpp"
+// Sweeps: one job over a parameter grid or seeded random samples, the model's parameters set
+// in place (docs/sweep.md).
+#include "sweep/sweep.hpp"

@@ -88,7 +88,7 @@ int run_app(const std::string& app, const std::function<int()>& body, const Flag
 }
 
 void add_common_options(po::options_description& desc, CommonOptions& c,
-                        const std::string& samples_help) {
+                        const std::string& samples_help, const std::string& csv_help) {
   desc.add_options()
       ("help", "print this help and exit")
       ("version", "print the version and exit")
@@ -111,7 +111,8 @@ void add_common_options(po::options_description& desc, CommonOptions& c,
                             : samples_help.c_str())
       ("json", po::value(&c.json)->value_name("PATH"),
        "write the machine-readable summary; '-' writes it to standard output")
-      ("csv", po::value(&c.csv)->value_name("PATH"), "write the time series, a header row first");
+      ("csv", po::value(&c.csv)->value_name("PATH"),
+       csv_help.empty() ? "write the time series, a header row first" : csv_help.c_str());
 }
 
 bool parse_command_line(int argc, char** argv, const po::options_description& desc,

@@ -57,9 +57,9 @@ struct CommonOptions {
 };
 
 /// Adds --model --set --from --to --method --rtol --atol --samples --json --csv --help --version
-/// to DESC, bound to C. SAMPLES_HELP replaces the default help text of --samples.
+/// to DESC, bound to C. SAMPLES_HELP (CSV_HELP) replaces the default help text of --samples (--csv).
 void add_common_options(po::options_description& desc, CommonOptions& c,
-                        const std::string& samples_help = "");
+                        const std::string& samples_help = "", const std::string& csv_help = "");
 
 /// Parses argv into VM against DESC (unknown options and stray arguments are errors).
 /// Returns false when --help or --version was given and printed (the app then returns 0).

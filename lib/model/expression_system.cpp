@@ -22,6 +22,7 @@ struct ExpressionSystem::CompiledMatrix {
   };
   Eigen::MatrixXd base;        // numbers and time-independent expressions, stored once
   std::vector<Entry> varying;  // re-evaluated at every new t
+  std::vector<Entry> by_parameters;  // read free parameters but not t: into base at each change
 };
 
 struct ExpressionSystem::Compiled {
@@ -40,6 +41,14 @@ struct ExpressionSystem::Compiled {
     double* slot;
   };
   std::vector<Define> defines;  // time-dependent ones, in file order
+  std::vector<Define> parameter_defines;  // read free parameters but not t, in file order
+  std::vector<double*> free_slots;        // the free parameters' variables, in free_ order
+  std::set<std::string> time_names;       // variables that change with t
+  bool depends_on_time(const Expression& e) const {
+    for (const std::string& v : e.variables_used())
+      if (time_names.count(v)) return true;
+    return false;
+  }
   std::map<std::string, double> constant_defines;
   std::map<std::string, double*> column_slots;
   CompiledMatrix A, B, C, D;
@@ -60,21 +69,49 @@ std::string where(const ModelSpec& spec, const std::string& key) { return spec.p
 
 }  // namespace
 
-ExpressionSystem::ExpressionSystem(ModelSpec spec) : spec_(std::move(spec)), c_(std::make_unique<Compiled>()) {
+ExpressionSystem::ExpressionSystem(ModelSpec spec) : ExpressionSystem(std::move(spec), {}) {}
+
+ExpressionSystem::ExpressionSystem(ModelSpec spec, std::vector<std::string> free)
+    : spec_(std::move(spec)), free_(std::move(free)), c_(std::make_unique<Compiled>()) {
   info_ = spec_.info;
   Compiled& c = *c_;
+  for (std::size_t i = 0; i < free_.size(); ++i) {
+    const std::string& name = free_[i];
+    if (std::find(free_.begin(), free_.begin() + static_cast<std::ptrdiff_t>(i), name) != free_.begin() + static_cast<std::ptrdiff_t>(i))
+      throw InputError(spec_.path + ": parameter '" + name + "' is given twice");
+    if (std::none_of(spec_.parameters.begin(), spec_.parameters.end(), [&](const auto& p) { return p.first == name; })) {
+      std::string names;
+      for (const auto& p : spec_.parameters) names += (names.empty() ? "" : ", ") + p.first;
+      throw InputError(spec_.path + ": the model has no parameter '" + name + "' (" +
+                       (names.empty() ? std::string("it declares no [parameters]") : "its parameters: " + names) + ")");
+    }
+    for (const auto& [key, reads] : spec_.parameter_settings)
+      if (std::find(reads.begin(), reads.end(), name) != reads.end())
+        throw InputError(spec_.path + ": " + key + " is computed from parameter '" + name +
+                         "' once at load: '" + name + "' cannot be varied in place (use --set for each value)");
+  }
   std::size_t columns = 0;
   for (const TableSpec& ts : spec_.tables) columns += ts.table->columns().size();
-  std::size_t nslots = 1 + columns + spec_.defines.size();
+  std::size_t nslots = 1 + columns + spec_.defines.size() + free_.size();
   c.slots = std::make_unique<double[]>(nslots);
   for (std::size_t i = 0; i < nslots; ++i) c.slots[i] = 0.0;
   double* next = c.slots.get();
   c.scope.add_variable("t", next++);
+  c.time_names.insert("t");
 
   // Who owns each name, for collision messages.
   std::map<std::string, std::string> owner;
+  c.free_slots.resize(free_.size());
   for (const auto& p : spec_.parameters) {
-    c.scope.add_constant(p.first, p.second);
+    const auto f = std::find(free_.begin(), free_.end(), p.first);
+    if (f == free_.end()) {
+      c.scope.add_constant(p.first, p.second);
+    } else {
+      double* slot = next++;
+      *slot = p.second;
+      c.free_slots[static_cast<std::size_t>(f - free_.begin())] = slot;
+      c.scope.add_variable(p.first, slot);
+    }
     owner[p.first] = "parameters." + p.first;
   }
   for (const TableSpec& ts : spec_.tables) {
@@ -86,6 +123,7 @@ ExpressionSystem::ExpressionSystem(ModelSpec spec) : spec_(std::move(spec)), c_(
                          " has the same name as " + o->second);
       owner[col] = "column '" + col + "' of " + ts.table->path();
       c.column_slots[col] = next;
+      c.time_names.insert(col);
       c.scope.add_variable(col, next++);
     }
   }
@@ -115,7 +153,9 @@ ExpressionSystem::ExpressionSystem(ModelSpec spec) : spec_(std::move(spec)), c_(
       c.scope.add_constant(d.name, v);
     } else {
       double* slot = next++;
-      c.defines.push_back({d.name, d.value.key, std::move(e), slot});
+      const bool timed = c.depends_on_time(e);
+      if (timed) c.time_names.insert(d.name);
+      (timed ? c.defines : c.parameter_defines).push_back({d.name, d.value.key, std::move(e), slot});
       c.scope.add_variable(d.name, slot);
     }
   }
@@ -138,7 +178,7 @@ ExpressionSystem::ExpressionSystem(ModelSpec spec) : spec_(std::move(spec)), c_(
           cm.base(i, j) = e.eval();
         } else {
           cm.base(i, j) = 0.0;
-          cm.varying.push_back({i, j, std::move(e), es.key});
+          (c.depends_on_time(e) ? cm.varying : cm.by_parameters).push_back({i, j, std::move(e), es.key});
         }
       }
   };
@@ -152,7 +192,7 @@ ExpressionSystem::ExpressionSystem(ModelSpec spec) : spec_(std::move(spec)), c_(
     try {
       for (const SwitchingFunction& f : switching_functions(text, where(spec_, key))) {
         Expression e(f.text, c.scope, where(spec_, key));
-        if (e.is_constant()) continue;  // switches on parameters only: never within a window
+        if (!c.depends_on_time(e)) continue;  // switches on parameters only: never within a window
         c.switches.push_back({std::move(e), f.kind, key, f.construct});
       }
     } catch (const InputError& e) {
@@ -162,9 +202,42 @@ ExpressionSystem::ExpressionSystem(ModelSpec spec) : spec_(std::move(spec)), c_(
   for (const auto& d : c.defines) watch(d.expr.text(), d.key);
   for (const CompiledMatrix* m : {&c.A, &c.B, &c.C, &c.D})
     for (const auto& e : m->varying) watch(e.expr.text(), e.key);
+  update_parameters();
 }
 
 ExpressionSystem::~ExpressionSystem() = default;
+
+void ExpressionSystem::update_parameters() {
+  Compiled& c = *c_;
+  c.last_t = std::numeric_limits<double>::quiet_NaN();  // time-dependent values are stale
+  for (const auto& d : c.parameter_defines) {
+    *d.slot = d.expr.eval();
+    if (!std::isfinite(*d.slot))
+      throw InputError(where(spec_, d.key) + ": '" + d.expr.text() + "' evaluates to " + format_number(*d.slot));
+  }
+  for (CompiledMatrix* m : {&c.A, &c.B, &c.C, &c.D})
+    for (const auto& e : m->by_parameters) {
+      const double v = e.expr.eval();
+      if (!std::isfinite(v))
+        throw InputError(where(spec_, e.key) + ": '" + e.expr.text() + "' evaluates to " + format_number(v));
+      m->base(e.row, e.col) = v;
+    }
+}
+
+void ExpressionSystem::set_parameters(const std::vector<double>& values) {
+  if (values.size() != free_.size())
+    throw std::invalid_argument("ExpressionSystem::set_parameters: " + std::to_string(values.size()) +
+                                " values for " + std::to_string(free_.size()) + " free parameters");
+  Compiled& c = *c_;
+  for (std::size_t i = 0; i < free_.size(); ++i) {
+    *c.free_slots[i] = values[i];
+    for (auto* list : {&spec_.parameters, &info_.parameters})
+      for (auto& p : *list)
+        if (p.first == free_[i]) p.second = values[i];
+  }
+  spec_.info.parameters = info_.parameters;
+  update_parameters();
+}
 
 void ExpressionSystem::refresh(double t) const {
   Compiled& c = *c_;
@@ -199,7 +272,7 @@ void ExpressionSystem::C(double t, MatrixRef out) const { fill(c_->C, t, out); }
 void ExpressionSystem::D(double t, MatrixRef out) const { fill(c_->D, t, out); }
 
 std::unique_ptr<System> ExpressionSystem::clone() const {
-  return std::make_unique<ExpressionSystem>(spec_);
+  return std::make_unique<ExpressionSystem>(spec_, free_);
 }
 
 double ExpressionSystem::symbol_value(const std::string& name, double t) const {
@@ -208,6 +281,8 @@ double ExpressionSystem::symbol_value(const std::string& name, double t) const {
     if (p.first == name) return p.second;
   auto k = c.constant_defines.find(name);
   if (k != c.constant_defines.end()) return k->second;
+  for (const auto& d : c.parameter_defines)
+    if (d.name == name) return *d.slot;
   refresh(t);
   for (const auto& d : c.defines)
     if (d.name == name) return *d.slot;

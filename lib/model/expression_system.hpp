@@ -49,6 +49,10 @@ struct ModelSpec {
   std::vector<DefineSpec> defines;
   std::vector<TableSpec> tables;
   MatrixSpec A, B, C, D;
+  /// Settings computed once at load from parameters (system.period, system.breakpoints[i],
+  /// window.from/to): the key and the parameters it reads. A parameter listed here cannot be
+  /// changed in place (ExpressionSystem::make_free).
+  std::vector<std::pair<std::string, std::vector<std::string>>> parameter_settings;
 };
 
 class ExpressionSystem : public System {
@@ -56,6 +60,12 @@ class ExpressionSystem : public System {
   /// Compiles SPEC. Throws InputError "PATH: KEY: what" for any bad expression or a
   /// time-independent [define] entry that is not finite.
   explicit ExpressionSystem(ModelSpec spec);
+  /// The same with the parameters FREE bound to variables instead of folded into the
+  /// expressions, so that set_parameters changes them without parsing anything again (sweeps).
+  /// Entries and [define] entries that read free parameters but not t are evaluated once per
+  /// change. Throws InputError naming a free name that is no parameter, or a parameter the
+  /// period, the breakpoints or the window are computed from (those are fixed at load).
+  ExpressionSystem(ModelSpec spec, std::vector<std::string> free);
   ~ExpressionSystem() override;
 
   void A(double t, MatrixRef out) const override;
@@ -73,6 +83,13 @@ class ExpressionSystem : public System {
   using System::D;
 
   const ModelSpec& spec() const { return spec_; }
+  /// The free parameters (constructor), in the order given.
+  const std::vector<std::string>& free_parameters() const { return free_; }
+  /// Sets the free parameters to VALUES (same order as free_parameters()) and re-evaluates what
+  /// depends on them; info().parameters, spec() and clones follow. Throws InputError naming the
+  /// first entry that is not finite with these values (the system must not be used then until
+  /// a later call succeeds). Allocates nothing besides error messages.
+  void set_parameters(const std::vector<double>& values);
   /// Value of parameter or [define] NAME at T (defines may depend on t). Throws InputError
   /// for an unknown name. For tests and reports; allocates.
   double symbol_value(const std::string& name, double t) const;
@@ -101,9 +118,11 @@ class ExpressionSystem : public System {
   struct Compiled;
   struct CompiledMatrix;
   void refresh(double t) const;
+  void update_parameters();
   void fill(const CompiledMatrix& m, double t, MatrixRef out) const;
 
   ModelSpec spec_;
+  std::vector<std::string> free_;
   std::unique_ptr<Compiled> c_;
 };
 

@@ -89,6 +89,9 @@ class ModelReader {
   toml::table root_;
   ModelSpec spec_;
   SymbolScope parameter_scope_;  // numbers and parameters: window, period, breakpoints
+  // The parameters' values as variables of parameter_scope_ (sized once, so the addresses stay
+  // put), so that a setting can tell which parameters it reads (ModelSpec::parameter_settings).
+  std::vector<double> parameter_values_;
 };
 
 void ModelReader::parse_file() {
@@ -214,7 +217,11 @@ void ModelReader::read_parameters(const ParameterOverrides& overrides) {
       throw InputError(path_ + ": --set " + ov.first + ": the value is not finite");
     it->second = ov.second;
   }
-  for (const auto& p : spec_.parameters) parameter_scope_.add_constant(p.first, p.second);
+  parameter_values_.resize(spec_.parameters.size());
+  for (std::size_t i = 0; i < spec_.parameters.size(); ++i) {
+    parameter_values_[i] = spec_.parameters[i].second;
+    parameter_scope_.add_variable(spec_.parameters[i].first, &parameter_values_[i]);
+  }
   parameter_scope_.add_unavailable("t", "'t' cannot be used here (only numbers and parameters)");
 }
 
@@ -222,7 +229,11 @@ double ModelReader::constant_of(const toml::node& n, const std::string& key) {
   double v;
   if (n.is_integer()) v = static_cast<double>(n.as_integer()->get());
   else if (n.is_floating_point()) v = n.as_floating_point()->get();
-  else if (n.is_string()) v = Expression(n.as_string()->get(), parameter_scope_, at(key)).eval();
+  else if (n.is_string()) {
+    const Expression e(n.as_string()->get(), parameter_scope_, at(key));
+    v = e.eval();
+    if (!e.variables_used().empty()) spec_.parameter_settings.push_back({key, e.variables_used()});
+  }
   else fail(key, "expected a number or an expression string, found " + type_name(n));
   if (!std::isfinite(v)) fail(key, "evaluates to " + format_number(v));
   return v;

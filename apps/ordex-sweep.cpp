@@ -1,0 +1,534 @@
+// ordex-sweep: one job (floquet, gramian, regulate, respond) over a parameter grid or random
+// samples (CONTRACT.md "ordex-sweep", docs/sweep.md), the sweep of lib/sweep/sweep.hpp. The
+// model is parsed once per process; points run on threads, or on MPI ranks under mpirun (rank 0
+// hands out points and writes the table in point order). The table is byte-identical whatever
+// the number of threads or ranks.
+#include <algorithm>
+#include <chrono>
+#include <cstdio>
+#include <cstdlib>
+#include <cstring>
+#include <filesystem>
+#include <fstream>
+#include <iostream>
+#include <sstream>
+#include <thread>
+
+#include "common/front_end.hpp"
+#include "common/job_options.hpp"
+#include "io/errors.hpp"
+#include "io/input_file.hpp"
+#include "model/model_file.hpp"
+#include "propagation/propagate_report.hpp"
+#include "sweep/sweep.hpp"
+
+#ifdef ORDEX_WITH_MPI
+#include <mpi.h>
+#endif
+
+using namespace ordex;
+namespace fs = std::filesystem;
+
+namespace {
+
+const char* const kAbout =
+    "Runs one job at every point of a parameter grid (--grid NAME=FROM:TO:COUNT, repeatable: the product, the "
+    "last name varying fastest) or of random samples (--sample PATH, a TOML of distributions per parameter, "
+    "with --runs N --seed S), on a model parsed once whose swept parameters are changed in place.\n"
+    "Jobs and their key figures (columns): floquet: max_abs_multiplier, stable (1/0) over one period from "
+    "--from; gramian: rank, lambda_min, lambda_max, condition, weakest_<state>; regulate: p0_max_eigenvalue "
+    "(with --x0 also cost), closed_loop_ok and, for a periodic model, closed_loop_max_abs_multiplier; "
+    "respond: final_<state>. Give --job NAME --help for the job's own options.\n"
+    "--csv writes one row per point in point order: the parameters, the key figures, then error (empty when "
+    "the point succeeded; a failing point is recorded and the sweep goes on). Numbers are printed in their "
+    "shortest round-trip form, so the table is the same byte for byte whatever --threads or the number of MPI ranks. Rows go to "
+    "PATH.partial as they complete, in order; PATH appears when the sweep is done. --resume continues an "
+    "interrupted sweep from PATH.partial (or PATH) instead of computing its rows again.\n"
+    "Under mpirun -np N (N > 1) rank 0 hands out points and writes the table, the other ranks compute; "
+    "otherwise --threads threads compute. Progress (points done of the total) goes to standard error.\n"
+    "Exit status: 0 done (also when points failed: see the error column and the summary's failed), 2 bad "
+    "input, 3 numerical failure outside the points.";
+
+FlagNames sweep_flag_names() {
+  FlagNames f = {{"SweepOptions::grid", "--grid"}, {"SweepOptions::runs", "--runs"},
+                 {"SweepOptions::sample", "--sample"}, {"SweepOptions::resume", "--resume"}};
+  for (const FlagNames* more : {&gramian_flag_names(), &regulate_flag_names(), &respond_flag_names()})
+    f.insert(f.end(), more->begin(), more->end());
+  return f;
+}
+const FlagNames kFlags = sweep_flag_names();
+
+/// The --job value as typed, found before parsing so that only that job's options are declared.
+std::string job_from_argv(int argc, char** argv) {
+  for (int i = 1; i < argc; ++i) {
+    const std::string a = argv[i];
+    if (a == "--job" && i + 1 < argc) return argv[i + 1];
+    if (a.rfind("--job=", 0) == 0) return a.substr(6);
+  }
+  return "";
+}
+
+/// Everything a process needs to compute points (every rank builds its own).
+struct Sweep {
+  CommonOptions common;
+  std::string job;
+  std::vector<std::string> grid;
+  std::string sample;
+  long runs = 0;
+  unsigned long long seed = 1;
+  int threads = 1;
+  bool resume = false;
+  std::unique_ptr<System> model;
+  std::unique_ptr<ExpressionSystem> base;
+  std::optional<SweepPoints> points;
+  SweepJobFactory make_job;
+  std::unique_ptr<SweepJob> job0;  // for names, window and settings
+  std::vector<std::string> figures;
+  std::vector<std::string> inputs;  // files read besides the model
+};
+
+/// Parses the command line and builds the sweep. Returns false when --help or --version was
+/// printed. Throws InputError for bad input.
+bool build_sweep(int argc, char** argv, Sweep& s) {
+  GramianFlags gramian_flags;
+  GramianJobOptions gramian_options;
+  RegulateFlags regulate_flags;
+  RegulatorOptions regulator_options;
+  RespondFlags respond_flags;
+  po::options_description desc("Options");
+  add_common_options(desc, s.common, "equally spaced times in the window, both ends included (gramian: the grid "
+                                     "of the block route; regulate: the gain schedule's grid)",
+                     "write the table: one row per point, the parameters, the key figures, then error");
+  s.threads = static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
+  desc.add_options()
+      ("job", po::value(&s.job)->value_name("NAME"), "floquet, gramian, regulate or respond (required)")
+      ("grid", po::value(&s.grid)->value_name("NAME=FROM:TO:COUNT")->composing(),
+       "COUNT equally spaced values of parameter NAME from FROM to TO; repeatable (the product, the last "
+       "name varying fastest)")
+      ("sample", po::value(&s.sample)->value_name("PATH"),
+       "random points instead of a grid: a TOML with one table per parameter, distribution = \"normal\" "
+       "(mean, sd) or \"uniform\" (low, high)")
+      ("runs", po::value(&s.runs)->value_name("N"), "with --sample: the number of points")
+      ("seed", po::value(&s.seed)->value_name("S")->default_value(1), "with --sample: the seed (point k's values "
+       "depend only on the seed and k)")
+      ("threads", po::value(&s.threads)->value_name("K")->default_value(s.threads), "threads computing points "
+       "(without mpirun)")
+      ("resume", po::bool_switch(&s.resume), "continue from the rows of an interrupted sweep in --csv's "
+       "PATH.partial (or PATH) instead of computing them again");
+  const std::string job = job_from_argv(argc, argv);
+  po::options_description job_desc("Options of --job " + job);
+  if (job == "gramian") add_gramian_options(job_desc, gramian_flags, gramian_options);
+  if (job == "regulate") add_regulate_options(job_desc, regulate_flags, regulator_options);
+  if (job == "respond") add_respond_options(job_desc, respond_flags, /*several=*/false);
+  if (!job_desc.options().empty()) desc.add(job_desc);
+  po::variables_map vm;
+  if (!parse_command_line(argc, argv, desc, vm, "ordex-sweep",
+                          "ordex-sweep --model PATH --job NAME (--grid NAME=FROM:TO:COUNT ... | --sample PATH "
+                          "--runs N) [--csv PATH] [options]",
+                          kAbout))
+    return false;
+  if (s.job.empty()) throw InputError("--job NAME is required (floquet, gramian, regulate or respond)");
+  if (s.job != "floquet" && s.job != "gramian" && s.job != "regulate" && s.job != "respond")
+    throw InputError("--job: unknown job '" + s.job + "' (choose floquet, gramian, regulate or respond)");
+  if (s.threads < 1 || s.threads > 256) throw InputError("--threads: " + std::to_string(s.threads) + " is outside [1, 256]");
+  // The points.
+  if (!s.grid.empty() && !s.sample.empty()) throw InputError("--grid and --sample: give one of them");
+  if (s.grid.empty() && s.sample.empty()) throw InputError("--grid NAME=FROM:TO:COUNT or --sample PATH is required");
+  if (!s.sample.empty()) {
+    if (!vm.count("runs")) throw InputError("--runs N is required with --sample");
+    if (s.runs < 1) throw InputError("--runs: " + std::to_string(s.runs) + " is not at least 1");
+    s.points = SweepPoints::samples(read_sample_plan(s.sample), static_cast<std::size_t>(s.runs), s.seed);
+    s.inputs.push_back(s.sample);
+  } else {
+    if (vm.count("runs")) throw InputError("--runs: only with --sample");
+    std::vector<GridAxis> axes;
+    for (const std::string& g : s.grid) axes.push_back(parse_grid_axis(g));
+    s.points = SweepPoints::grid(std::move(axes));
+  }
+  for (const std::string& set : s.common.sets) {
+    const std::string name = parse_override(set).first;
+    const auto& names = s.points->names();
+    if (std::find(names.begin(), names.end(), name) != names.end())
+      throw InputError("--set " + name + ": the sweep varies '" + name + "' (" + (s.grid.empty() ? "--sample" : "--grid") + ")");
+  }
+  // The model (parsed here, once) and its copy with the swept parameters free.
+  const bool floquet = s.job == "floquet", respond = s.job == "respond";
+  if (floquet && !s.common.to.empty()) throw InputError("--to: the floquet job's window is one period from --from");
+  AppSetup setup = setup_from_common(s.common, /*need_window=*/!floquet && !respond);
+  s.model = std::move(setup.system);
+  const std::string flag = s.grid.empty() ? "--sample" : "--grid";
+  const std::vector<std::pair<std::string, double>> declared = s.model->info().parameters;
+  for (const std::string& name : s.points->names())
+    if (std::none_of(declared.begin(), declared.end(), [&](const auto& p) { return p.first == name; })) {
+      std::string list;
+      for (const auto& p : declared) list += (list.empty() ? "" : ", ") + p.first;
+      throw InputError(flag + " " + name + ": the model has no parameter '" + name + "' (" +
+                       (list.empty() ? std::string("it declares no [parameters]") : "its parameters: " + list) + ")");
+    }
+  s.base = make_sweep_system(*s.model, s.points->names());
+  const System& sys = *s.base;
+  const PropagationOptions engine = setup.propagation;
+  if (floquet) {
+    const double t0 = s.common.from.empty() && !sys.info().window ? 0.0 : setup.t0;
+    s.make_job = [&sys, t0, engine] { return make_floquet_job(sys, t0, engine); };
+  } else if (s.job == "gramian") {
+    require_forward_window(setup);
+    apply_gramian_flags(gramian_flags, gramian_options);
+    gramian_options.gramian.propagation = engine;
+    gramian_options.samples = s.common.samples;
+    const double t0 = setup.t0, t1 = setup.t1;
+    s.make_job = [t0, t1, gramian_options] { return make_gramian_job(t0, t1, gramian_options); };
+  } else if (s.job == "regulate") {
+    require_forward_window(setup);
+    s.inputs.push_back(regulate_flags.weights);
+    regulator_options.samples = s.common.samples;
+    apply_regulate_flags(regulate_flags, vm, sys, setup, regulator_options);
+    regulator_options.validate();
+    // Each thread reads the weights itself: weights with expressions of t keep their variables inside.
+    const double t0 = setup.t0, t1 = setup.t1;
+    auto flags = regulate_flags;
+    auto options = regulator_options;
+    auto vm_weights = vm.count("weights") > 0;
+    s.make_job = [&sys, t0, t1, flags, options, vm_weights] {
+      RegulatorOptions o = options;
+      if (vm_weights) o.weights = load_weights(flags.weights, sys.states(), sys.inputs());
+      return make_regulate_job(sys, t0, t1, o);
+    };
+  } else {
+    if (respond_flags.inputs.size() > 1) throw InputError("--input: one history in a sweep (give it once)");
+    RespondOptions o;
+    apply_respond_flags(respond_flags, vm, sys, setup, o);
+    std::optional<InputHistory> history;
+    if (!respond_flags.inputs.empty()) {
+      history = read_input_history(respond_flags.inputs[0], sys);
+      s.inputs.push_back(respond_flags.inputs[0]);
+    } else if (sys.inputs() > 0) {
+      throw InputError("--input PATH is required: the model has inputs");
+    }
+    double t0 = setup.t0, t1 = setup.t1;
+    if (s.common.from.empty() && s.common.to.empty() && !sys.info().window) {
+      if (!history) throw InputError(s.common.model + ": no window: give --from and --to, or a [window] in the model");
+      t0 = history->times.front();
+      t1 = history->times.back();
+    }
+    if (!(t1 > t0)) throw InputError("--from/--to: the window must run forward (t1 > t0)");
+    s.make_job = [t0, t1, history, o] { return make_respond_job(t0, t1, history, o); };
+  }
+  s.job0 = s.make_job();
+  s.figures = s.job0->figure_names(sys);
+  return true;
+}
+
+/// Progress on standard error: "ordex-sweep: K of N points" at most every 2 seconds, and a
+/// last line when the sweep is done.
+class Progress {
+ public:
+  Progress(std::size_t total, std::size_t done) : total_(total), done_(done), start_(clock::now()), last_(start_) {}
+  void point() {
+    ++done_;
+    const auto now = clock::now();
+    if (std::chrono::duration<double>(now - last_).count() >= 2.0 && done_ < total_) {
+      std::cerr << "ordex-sweep: " << done_ << " of " << total_ << " points" << std::endl;
+      last_ = now;
+    }
+  }
+  double seconds() const { return std::chrono::duration<double>(clock::now() - start_).count(); }
+
+ private:
+  using clock = std::chrono::steady_clock;
+  std::size_t total_, done_;
+  clock::time_point start_, last_;
+};
+
+/// The table: rows appended to PATH.partial (flushed, in point order) and renamed to PATH at the
+/// end; "-" writes standard output; empty writes nothing.
+class TableOutput {
+ public:
+  TableOutput(const std::string& path, const std::string& header, bool resume, const SweepPoints& points)
+      : path_(path) {
+    if (path_.empty()) return;
+    std::vector<std::string> kept;
+    if (resume) {
+      if (path_ == "-") throw InputError("SweepOptions::resume: needs --csv PATH (a file, not standard output)");
+      for (const std::string& from : {partial(), path_}) {
+        if (!fs::exists(from)) continue;
+        kept = resumable_rows(read_text_file(from, "sweep table", std::size_t(1) << 34), from, header, points);
+        break;
+      }
+    }
+    resumed_ = kept.size();
+    if (path_ == "-") {
+      out_ = &std::cout;
+    } else {
+      file_.open(partial(), std::ios::binary | std::ios::trunc);
+      if (!file_) throw InputError(partial() + ": cannot be written");
+      out_ = &file_;
+    }
+    *out_ << header << "\n";
+    for (const std::string& row : kept) *out_ << row << "\n";
+    flush();
+  }
+  std::size_t resumed() const { return resumed_; }
+  void write(const std::string& row) {
+    if (!out_) return;
+    *out_ << row << "\n";
+    flush();
+  }
+  void finish() {
+    if (!out_ || path_ == "-") return;
+    file_.close();
+    if (!file_) throw InputError(partial() + ": cannot write");
+    fs::rename(partial(), path_);
+  }
+
+ private:
+  std::string partial() const { return path_ + ".partial"; }
+  void flush() {
+    out_->flush();
+    if (!*out_) throw InputError((path_ == "-" ? std::string("standard output") : partial()) + ": cannot write");
+  }
+  std::string path_;
+  std::ofstream file_;
+  std::ostream* out_ = nullptr;
+  std::size_t resumed_ = 0;
+};
+
+/// Rank 0's (or the only process's) side: the output, the summary, and the points in order.
+struct Collector {
+  Sweep& s;
+  TableOutput table;
+  SummaryOutput json;
+  SweepReport report;
+  Progress progress;
+  std::vector<std::size_t> todo;
+
+  explicit Collector(Sweep& sweep)
+      : s(sweep),
+        table((check_output_paths({sweep.common.json, sweep.common.csv}, run_inputs(*sweep.model, sweep.inputs)),
+               sweep.common.csv),
+              sweep_header(sweep.points->names(), sweep.figures), sweep.resume, *sweep.points),
+        json(sweep.common.json),
+        progress(sweep.points->size(), table.resumed()) {
+    for (std::size_t k = table.resumed(); k < s.points->size(); ++k) todo.push_back(k);
+    report.job = s.job;
+    report.job_settings = s.job0->settings();
+    report.header = report_header(*s.model, s.job0->t0(), s.job0->t1(), report.job_settings.value("method", std::string("auto")));
+    report.parameters = s.points->names();
+    report.figures = s.figures;
+    report.points_from = s.points->is_grid() ? "grid" : "samples";
+    report.plan = plan_json(*s.points);
+    report.points = s.points->size();
+    report.resumed = table.resumed();
+  }
+  void add(std::size_t k, const PointResult& r) {
+    table.write(sweep_row(s.points->values(k), r));
+    ++report.computed;
+    if (!r.error.empty()) {
+      ++report.failed;
+      if (report.first_failures.size() < 10) report.first_failures.push_back({k, r.error});
+    }
+    progress.point();
+  }
+  int finish() {
+    report.seconds = progress.seconds();
+    table.finish();
+    json.write(with_app("ordex-sweep", report.to_json()));
+    json.commit();
+    std::cerr << "ordex-sweep: " << report.points << " of " << report.points << " points (" << report.computed
+              << " computed, " << report.resumed << " resumed, " << report.failed << " failed)" << std::endl;
+    if (s.common.json != "-" && s.common.csv != "-") std::cout << report.brief();
+    return 0;
+  }
+};
+
+int run_threads(Sweep& s) {
+  Collector c(s);
+  c.report.threads = s.threads;
+  run_points_on_threads(*s.base, s.make_job, *s.points, c.todo, s.threads,
+                        [&](std::size_t k, const PointResult& r) { c.add(k, r); });
+  return c.finish();
+}
+
+#ifdef ORDEX_WITH_MPI
+// Messages: rank 0 sends WORK {first position, count} (count 0: stop); a worker sends RESULTS
+// (its finished points, possibly none) and so asks for more.
+constexpr int kTagWork = 1, kTagResults = 2;
+
+void pack(std::vector<char>& buf, const void* p, std::size_t n) {
+  const char* c = static_cast<const char*>(p);
+  buf.insert(buf.end(), c, c + n);
+}
+
+std::vector<char> pack_results(const std::vector<std::pair<std::uint64_t, PointResult>>& results) {
+  std::vector<char> buf;
+  for (const auto& [position, r] : results) {
+    const std::uint64_t nfig = r.figures.size(), nerr = r.error.size();
+    pack(buf, &position, sizeof position);
+    pack(buf, &nfig, sizeof nfig);
+    pack(buf, r.figures.data(), nfig * sizeof(double));
+    pack(buf, &nerr, sizeof nerr);
+    pack(buf, r.error.data(), nerr);
+  }
+  return buf;
+}
+
+std::vector<std::pair<std::uint64_t, PointResult>> unpack_results(const std::vector<char>& buf) {
+  std::vector<std::pair<std::uint64_t, PointResult>> out;
+  std::size_t at = 0;
+  auto take = [&](void* p, std::size_t n) {
+    if (at + n > buf.size()) throw std::runtime_error("a malformed message from a worker rank");
+    std::memcpy(p, buf.data() + at, n);
+    at += n;
+  };
+  while (at < buf.size()) {
+    std::uint64_t position, nfig, nerr;
+    PointResult r;
+    take(&position, sizeof position);
+    take(&nfig, sizeof nfig);
+    r.figures.resize(nfig);
+    take(r.figures.data(), nfig * sizeof(double));
+    take(&nerr, sizeof nerr);
+    r.error.resize(nerr);
+    take(r.error.data(), nerr);
+    out.emplace_back(position, std::move(r));
+  }
+  return out;
+}
+
+/// Set once rank 0 has told the workers where to start: a failure after that must abort them.
+bool g_workers_started = false;
+constexpr std::uint64_t kNoStart = ~std::uint64_t(0);
+
+int run_rank0(Sweep& s, int ranks) {
+  std::unique_ptr<Collector> collector;
+  std::uint64_t first = kNoStart;
+  try {
+    collector = std::make_unique<Collector>(s);
+    first = collector->table.resumed();
+  } catch (...) {
+    MPI_Bcast(&first, 1, MPI_UINT64_T, 0, MPI_COMM_WORLD);  // the workers stop
+    throw;
+  }
+  MPI_Bcast(&first, 1, MPI_UINT64_T, 0, MPI_COMM_WORLD);
+  g_workers_started = true;
+  Collector& c = *collector;
+  c.report.threads = 1;
+  c.report.ranks = ranks;
+  OrderedResults ordered([&](std::size_t position, const PointResult& r) { c.add(c.todo[position], r); });
+  const std::size_t total = c.todo.size(), workers = static_cast<std::size_t>(ranks - 1);
+  std::size_t next = 0;
+  int active = ranks - 1;
+  while (active > 0) {
+    MPI_Status status;
+    MPI_Probe(MPI_ANY_SOURCE, kTagResults, MPI_COMM_WORLD, &status);
+    int bytes = 0;
+    MPI_Get_count(&status, MPI_BYTE, &bytes);
+    std::vector<char> buf(static_cast<std::size_t>(bytes));
+    MPI_Recv(buf.data(), bytes, MPI_BYTE, status.MPI_SOURCE, kTagResults, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
+    for (auto& [position, r] : unpack_results(buf)) ordered.add(position, std::move(r));
+    // Small chunks, smaller towards the end, so that slow points do not leave ranks idle.
+    const std::size_t left = total - next;
+    const std::size_t chunk = std::min(left, std::max<std::size_t>(1, std::min<std::size_t>(8, left / (4 * workers))));
+    const std::uint64_t work[2] = {next, chunk};
+    MPI_Send(work, 2, MPI_UINT64_T, status.MPI_SOURCE, kTagWork, MPI_COMM_WORLD);
+    next += chunk;
+    if (chunk == 0) --active;
+  }
+  return c.finish();
+}
+
+void run_worker(Sweep& s) {
+  // The points still to compute are the same on every rank: rank 0 resumes from a prefix of the
+  // table, and the positions it hands out count from there.
+  std::uint64_t first = kNoStart;
+  MPI_Bcast(&first, 1, MPI_UINT64_T, 0, MPI_COMM_WORLD);
+  if (first == kNoStart) return;
+  std::unique_ptr<System> copy = s.base->clone();
+  auto* sys = dynamic_cast<ExpressionSystem*>(copy.get());
+  const std::unique_ptr<SweepJob> job = s.make_job();
+  std::vector<std::pair<std::uint64_t, PointResult>> done;
+  for (;;) {
+    const std::vector<char> buf = pack_results(done);
+    MPI_Send(buf.data(), static_cast<int>(buf.size()), MPI_BYTE, 0, kTagResults, MPI_COMM_WORLD);
+    done.clear();
+    std::uint64_t work[2];
+    MPI_Recv(work, 2, MPI_UINT64_T, 0, kTagWork, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
+    if (work[1] == 0) return;
+    for (std::uint64_t p = work[0]; p < work[0] + work[1]; ++p)
+      done.emplace_back(p, evaluate_point(*sys, *job, s.points->values(first + p), s.figures.size()));
+  }
+}
+
+/// True when started by mpirun (or another MPI launcher): then MPI is initialized.
+bool launched_by_mpi() {
+  for (const char* v : {"OMPI_COMM_WORLD_SIZE", "PMIX_RANK", "PMI_SIZE", "PMI_RANK"})
+    if (std::getenv(v)) return true;
+  return false;
+}
+#endif
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  int rank = 0, ranks = 1;
+#ifdef ORDEX_WITH_MPI
+  const bool mpi = launched_by_mpi();
+  if (mpi) {
+    MPI_Init(&argc, &argv);
+    MPI_Comm_rank(MPI_COMM_WORLD, &rank);
+    MPI_Comm_size(MPI_COMM_WORLD, &ranks);
+  }
+#endif
+  Sweep s;
+  // Every rank builds the sweep; only rank 0 speaks unless it alone succeeded.
+  std::ostringstream quiet_err, quiet_out;
+  std::streambuf* err = std::cerr.rdbuf();
+  std::streambuf* out = std::cout.rdbuf();
+  if (rank != 0) {
+    std::cerr.rdbuf(quiet_err.rdbuf());
+    std::cout.rdbuf(quiet_out.rdbuf());
+  }
+  bool go = false;
+  int status = run_app("ordex-sweep", [&] {
+    go = build_sweep(argc, argv, s);
+    return 0;
+  }, kFlags);
+  std::cerr.rdbuf(err);
+  std::cout.rdbuf(out);
+  if (ranks > 1) {
+#ifdef ORDEX_WITH_MPI
+    int worst = status, go_all = go ? 1 : 0;
+    MPI_Allreduce(&status, &worst, 1, MPI_INT, MPI_MAX, MPI_COMM_WORLD);
+    MPI_Allreduce(MPI_IN_PLACE, &go_all, 1, MPI_INT, MPI_MIN, MPI_COMM_WORLD);
+    if (worst != 0 || !go_all) {
+      int first_bad = status != 0 ? rank : ranks;
+      MPI_Allreduce(MPI_IN_PLACE, &first_bad, 1, MPI_INT, MPI_MIN, MPI_COMM_WORLD);
+      if (rank != 0 && rank == first_bad) std::cerr << "(rank " << rank << ") " << quiet_err.str() << std::flush;
+      MPI_Finalize();
+      return worst;
+    }
+    if (rank == 0) {
+      status = run_app("ordex-sweep", [&] { return run_rank0(s, ranks); }, kFlags);
+      if (status != 0 && g_workers_started) MPI_Abort(MPI_COMM_WORLD, status);  // workers wait for work
+    } else {
+      status = run_app("ordex-sweep (rank " + std::to_string(rank) + ")", [&] {
+        run_worker(s);
+        return 0;
+      }, kFlags);
+    }
+    MPI_Finalize();
+    return status;
+#endif
+  }
+  if (status != 0 || !go) {
+#ifdef ORDEX_WITH_MPI
+    if (mpi) MPI_Finalize();
+#endif
+    return status;
+  }
+  status = run_app("ordex-sweep", [&] { return run_threads(s); }, kFlags);
+#ifdef ORDEX_WITH_MPI
+  if (mpi) MPI_Finalize();
+#endif
+  return status;
+}

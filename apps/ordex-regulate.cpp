@@ -3,6 +3,7 @@
 #include <iostream>
 
 #include "common/front_end.hpp"
+#include "common/hdf5_output.hpp"
 #include "io/errors.hpp"
 #include "riccati/regulator.hpp"
 
@@ -17,7 +18,7 @@ const FlagNames kFlags = {{"RegulatorOptions::x0", "--x0"}, {"RegulatorOptions::
 int main(int argc, char** argv) {
   return run_app("ordex-regulate", [&] {
     CommonOptions common;
-    std::string weights, solver, x0, p_csv, run_csv;
+    std::string weights, solver, x0, p_csv, run_csv, hdf5;
     RegulatorOptions o;
     po::options_description desc("Options");
     add_common_options(desc, common, "equally spaced times of the gain schedule (CSV rows), ends included");
@@ -37,6 +38,7 @@ int main(int argc, char** argv) {
         ("p-csv", po::value(&p_csv)->value_name("PATH"), "also write P(t) on the --samples grid: t,P_1_1,...")
         ("response-csv", po::value(&run_csv)->value_name("PATH"), "with --x0: the closed-loop run on the --samples "
          "grid, t,<states>,<inputs> (absent when the check failed)");
+    add_hdf5_option(desc, hdf5, "the gain schedule on the --samples grid: t, K (samples x m x n) and P (samples x n x n)");
     po::variables_map vm;
     if (!parse_command_line(argc, argv, desc, vm, "ordex-regulate",
             "ordex-regulate --model PATH [--weights PATH] [--x0 V] [options]",
@@ -55,7 +57,7 @@ int main(int argc, char** argv) {
     const System& sys = *setup.system;
     const int n = sys.states(), m = sys.inputs();
     if (!run_csv.empty() && x0.empty()) throw InputError("--response-csv needs --x0");
-    check_output_paths({common.json, common.csv, p_csv, run_csv}, run_inputs(sys, {weights}));
+    check_output_paths({common.json, common.csv, p_csv, run_csv, hdf5}, run_inputs(sys, {weights}));
     if (vm.count("weights")) o.weights = load_weights(weights, n, m);
     o.riccati.solver = parse_solver(solver);
     o.riccati.propagation = setup.propagation;
@@ -64,6 +66,15 @@ int main(int argc, char** argv) {
     o.check_closed_loop = !vm.count("no-check");
     if (vm.count("x0")) o.x0 = parse_vector(x0, n, "--x0");
     SummaryOutput json(common.json);
+    Hdf5Output h5(hdf5);
+    const int h5_t = h5.series("t"), h5_K = h5.series("K", m, n), h5_P = h5.series("P", n, n);
+    if (h5)
+      o.on_sample = [&](std::size_t, double t, const Eigen::MatrixXd& K, const Eigen::MatrixXd& P) {
+        h5.append_value(h5_t, t);
+        h5.append(h5_K, K);
+        h5.append(h5_P, P);
+      };
+    o.keep_schedule = !(common.json.empty() && common.csv.empty() && p_csv.empty());
     const RegulatorReport r = regulate(sys, setup.t0, setup.t1, o);
     if (!common.csv.empty()) write_gain_schedule_csv(common.csv, r);
     if (!p_csv.empty()) write_riccati_csv(p_csv, r);
@@ -71,6 +82,8 @@ int main(int argc, char** argv) {
     Json summary = with_app("ordex-regulate", r.to_json());
     summary["caution"] = kHardwareCaution;
     json.write(summary);
+    h5.attributes(summary, "/", {"gain_schedule"});
+    h5.commit();
     json.commit();
     if (r.closed_loop.status == ClosedLoopCheck::Status::Failed)
       std::cerr << "ordex-regulate: warning: the closed-loop check failed (" << with_flag_names(r.closed_loop.reason, kFlags)

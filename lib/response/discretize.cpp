@@ -44,7 +44,7 @@ DiscretizeReport discretize(const System& sys, const std::vector<double>& times,
   // The growth over the grid: the product Phi_k ... Phi_0, renormalised as it goes so that an
   // unstable plant does not overflow (its scale kept as a logarithm).
   const Eigen::Index n = sys.states();
-  Eigen::MatrixXd product = Eigen::MatrixXd::Identity(n, n), next(n, n);
+  Eigen::MatrixXd product = Eigen::MatrixXd::Identity(n, n), next(n, n), last_phi;
   double log_scale = 0;
   builder.for_each_step(times, [&](std::size_t k, const StepMatrices& step) {
     next.noalias() = step.phi * product;
@@ -54,8 +54,11 @@ DiscretizeReport discretize(const System& sys, const std::vector<double>& times,
       product /= norm;
       log_scale += std::log(norm);
     }
-    if (n > 0)
+    // A reused step (time-invariant grid) repeats the previous matrix: its norm is known.
+    if (n > 0 && !(k > 0 && step.phi.cwiseEqual(last_phi).all())) {
+      last_phi = step.phi;
       rep.largest_step = std::max(rep.largest_step, Eigen::JacobiSVD<Eigen::MatrixXd>(step.phi).singularValues()(0));
+    }
     if (o.on_step) o.on_step(k, step);
     if (o.keep_steps) rep.model.steps.push_back(step);
   });

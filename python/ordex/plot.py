@@ -581,6 +581,14 @@ def save(fig, path, inputs=(), dpi=None):
         raise PlotInputError("%s: is a folder" % path)
     if not os.path.isdir(folder):
         raise PlotInputError("%s: no folder %s" % (path, folder))
+    # Each drawn curve gets an id of its own in the SVG (ordex_curve_N), so that a reader of the
+    # file can find the data lines among the grid and tick lines.
+    k = 0
+    for ax in fig.axes:
+        for line in ax.get_lines():
+            k += 1
+            if line.get_gid() is None:
+                line.set_gid("ordex_curve_%d" % k)
     fd, tmp = tempfile.mkstemp(prefix=".%s." % os.path.basename(path), suffix=".tmp", dir=folder)
     try:
         # SVG text stays text (searchable, editable), not glyph outlines.

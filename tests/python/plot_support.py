@@ -8,7 +8,17 @@ SOURCE_DIR = os.environ.get("ORDEX_SOURCE_DIR",
 BIN_DIR = os.environ.get("ORDEX_BIN_DIR", os.path.join(SOURCE_DIR, "build", "bin"))
 MODELS = os.path.join(SOURCE_DIR, "models")
 DATA = os.path.join(SOURCE_DIR, "tests", "data")
-sys.path.insert(0, os.path.join(SOURCE_DIR, "python"))
+
+
+def load_plot_module():
+    """python/ordex/plot.py of this source tree, loaded by file: it needs no compiled extension,
+    so the tests do not depend on the package's __init__ (which loads the bindings)."""
+    import importlib.util
+    spec = importlib.util.spec_from_file_location("ordex_plot_under_test",
+                                                  os.path.join(SOURCE_DIR, "python", "ordex", "plot.py"))
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
 
 
 def app(name):

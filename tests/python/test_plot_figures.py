@@ -15,8 +15,9 @@ import xml.etree.ElementTree as ET
 import numpy as np
 import scipy.linalg
 
-from plot_support import DATA, MODELS, read_csv, run, write_input
-from ordex import plot
+from plot_support import DATA, MODELS, load_plot_module, read_csv, run, write_input
+
+plot = load_plot_module()
 
 
 def lines_of(ax):

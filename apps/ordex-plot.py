@@ -85,6 +85,7 @@ def main(argv):
     plot = find_plot_module()
     try:
         results = expand(args.results)
+        plot.check_output(args.output, results)  # before any drawing
         plot.save(plot.plot(results, entries=split_list(args.entries), columns=split_list(args.columns)),
                   args.output, inputs=results, dpi=args.dpi)
     except (ValueError, OSError) as e:  # PlotInputError is a ValueError

@@ -10,6 +10,7 @@ compiled extension, so it works on results copied from another machine.
 Every function takes a result -- a dict loaded from an app's JSON, a path to a JSON or CSV file,
 or a ``Table`` -- and returns a ``matplotlib.figure.Figure`` (no pyplot, no global backend: a
 figure is drawn with the Agg canvas, and a notebook shows it as it shows any Figure).
+``Figure`` objects are made with ``layout="constrained"`` (matplotlib 3.5 or later).
 
 Kinds (``kind_of``), recognised by the JSON keys or the CSV header:
 
@@ -41,16 +42,13 @@ import os
 import re
 import tempfile
 
-import matplotlib
 import numpy as np
-from matplotlib.backends.backend_agg import FigureCanvasAgg
-from matplotlib.figure import Figure
 
 __all__ = [
     "PlotInputError", "Table", "load", "kind_of", "plot", "save",
     "plot_transition", "plot_floquet", "plot_gramian_profile", "plot_gramian",
     "plot_gain_schedule", "plot_matrix_series", "plot_discrete_growth", "plot_responses",
-    "plot_response_summary", "FIGURE_FORMATS",
+    "plot_response_summary", "check_output", "discrete_growth", "FIGURE_FORMATS",
 ]
 
 FIGURE_FORMATS = ("svg", "png", "pdf")
@@ -227,6 +225,10 @@ def _title(r, what):
 
 
 def _new_figure(rows=1, cols=1, size=(7.0, 4.2)):
+    # matplotlib is imported when a figure is made: reading and recognising a result (and
+    # refusing a bad one) stays quick.
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
     fig = Figure(figsize=size, layout="constrained")
     FigureCanvasAgg(fig)
     axes = fig.subplots(rows, cols, squeeze=False)
@@ -562,25 +564,36 @@ def plot(result, entries=None, columns=None):
         raise PlotInputError("%s: a %s result with a missing or malformed part (%s)" % (_source(r), kind, e)) from None
 
 
-def save(fig, path, inputs=(), dpi=None):
-    """Writes FIG to PATH (format from the suffix: svg, png or pdf) through a temporary file in
-    the same folder, renamed into place when complete; refuses a PATH that is one of INPUTS.
-    DPI: the resolution of a PNG (default: the figure's, 100)."""
+def check_output(path, inputs=()):
+    """Raises PlotInputError unless PATH can take a figure: a .svg, .png or .pdf name in an
+    existing folder, not a folder, and none of INPUTS (the same file by name or by inode).
+    Returns the format."""
     path = os.fspath(path)
     fmt = os.path.splitext(path)[1].lower().lstrip(".")
     for i in inputs:
         i = os.fspath(i)
-        if os.path.exists(path) and os.path.exists(i) and os.path.samefile(path, i):
-            raise PlotInputError("%s: is an input of this run; choose another output name" % path)
-        if os.path.abspath(path) == os.path.abspath(i):
+        same = os.path.abspath(path) == os.path.abspath(i)
+        if not same and os.path.exists(path) and os.path.exists(i):
+            same = os.path.samefile(path, i)
+        if same:
             raise PlotInputError("%s: is an input of this run; choose another output name" % path)
     if fmt not in FIGURE_FORMATS:
         raise PlotInputError("%s: the figure's name must end in .svg, .png or .pdf" % path)
-    folder = os.path.dirname(os.path.abspath(path))
     if os.path.isdir(path):
         raise PlotInputError("%s: is a folder" % path)
+    folder = os.path.dirname(os.path.abspath(path))
     if not os.path.isdir(folder):
         raise PlotInputError("%s: no folder %s" % (path, folder))
+    return fmt
+
+
+def save(fig, path, inputs=(), dpi=None):
+    """Writes FIG to PATH (format from the suffix: svg, png or pdf) through a temporary file in
+    the same folder, renamed into place when complete; refuses a PATH that is one of INPUTS
+    (check_output). DPI: the resolution of a PNG (default: the figure's, 100)."""
+    path = os.fspath(path)
+    fmt = check_output(path, inputs)
+    folder = os.path.dirname(os.path.abspath(path))
     # Each drawn curve gets an id of its own in the SVG (ordex_curve_N), so that a reader of the
     # file can find the data lines among the grid and tick lines.
     k = 0
@@ -592,6 +605,7 @@ def save(fig, path, inputs=(), dpi=None):
     fd, tmp = tempfile.mkstemp(prefix=".%s." % os.path.basename(path), suffix=".tmp", dir=folder)
     try:
         # SVG text stays text (searchable, editable), not glyph outlines.
+        import matplotlib
         with os.fdopen(fd, "wb") as f, matplotlib.rc_context({"svg.fonttype": "none"}):
             fig.savefig(f, format=fmt, dpi=dpi or "figure")
         os.chmod(tmp, 0o666 & ~_umask())

@@ -29,14 +29,15 @@ int main(int argc, char** argv) {
          "gamma0 u_k + gamma1 u_{k+1})")
         ("no-reuse", "integrate every interval even when every entry of the model is a constant");
     add_hdf5_option(desc, hdf5, "t (grid times), phi (intervals x n x n) and gamma or gamma0/gamma1 (intervals x "
-                    "n x m); without --json the intervals are streamed to --csv and --hdf5 and never held in memory");
+                    "n x m)");
     po::variables_map vm;
     if (!parse_command_line(argc, argv, desc, vm, "ordex-discretize",
             "ordex-discretize --model PATH [--step H | --times PATH] [options]",
             "Writes the exact discrete-time model of x' = A(t) x + B(t) u on a grid of sample times, for an input "
             "held (zoh) or linear between samples: phi and gamma of every interval, as JSON (--json: times, phi, "
             "gamma or gamma0/gamma1, lists over the intervals) and CSV (--csv: one row an interval, "
-            "k,t_start,t_end,phi_1_1..phi_n_n,gamma_1_1..; docs/response.md). "
+            "k,t_start,t_end,phi_1_1..phi_n_n,gamma_1_1..; docs/response.md) and HDF5 (--hdf5). Without --json "
+            "the intervals go to --csv and --hdf5 as they are computed and are never all held in memory. "
             "Exit status: 0 done, 2 bad input, 3 numerical failure."))
       return 0;
     if (vm.count("step") && vm.count("times")) throw InputError("--step and --times: give one of them, not both");

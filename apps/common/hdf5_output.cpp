@@ -14,7 +14,7 @@ namespace ordex {
 
 void add_hdf5_option(boost::program_options::options_description& desc, std::string& path, const std::string& what) {
   desc.add_options()("hdf5", boost::program_options::value(&path)->value_name("PATH"),
-                     ("also write " + what + " as HDF5, each sample as it is computed, with the summary's "
+                     ("write an HDF5 file of " + what + ", each sample as it is computed, with the summary's "
                       "header as attributes (docs/plots.md)" + (hdf5_available() ? "" : "; not in this build")).c_str());
 }
 

@@ -27,6 +27,23 @@ def attr_json(f, key):
     return json.loads(f.attrs[key])
 
 
+class CompactJson(unittest.TestCase):
+    def test_compact_by_default_indented_on_request(self):
+        model = os.path.join(MODELS, "mathieu.toml")
+        compact = run(["ordex-propagate", "--model", model, "--json", "-"]).stdout
+        indented = run(["ordex-propagate", "--model", model, "--json", "-", "--json-indent", 3]).stdout
+        self.assertEqual(compact.count("\n"), 1)  # one line
+        self.assertTrue(compact.startswith('{"app":"ordex-propagate","ordex_version":'), compact[:60])
+        self.assertGreater(indented.count("\n"), 20)
+        self.assertIn('\n   "app": "ordex-propagate",', indented)
+        a, b = json.loads(compact), json.loads(indented)
+        for d in (a, b):
+            d.pop("seconds", None)  # wall time, if reported, differs between runs
+        self.assertEqual(a, b)
+        p = run(["ordex-propagate", "--model", model, "--json-indent", 17], expect=2)
+        self.assertEqual(p.stderr, "ordex-propagate: error: --json-indent: 17 is outside [0, 16]\n")
+
+
 class WithoutHdf5(unittest.TestCase):
     @unittest.skipIf(HDF5_BUILT, "this build writes HDF5 (the tests below check it)")
     def test_refused_when_not_built(self):

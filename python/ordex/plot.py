@@ -495,7 +495,8 @@ def plot_responses(results, columns=None, names=None):
         ax.set_ylabel(c)
         ax.grid(True, alpha=0.3)
         if a == 0:
-            ax.set_title("response" if len(tables) == 1 else "responses: %d runs" % len(tables))
+            ax.set_title("time series: %s" % os.path.basename(tables[0].source) if len(tables) == 1
+                         else "responses: %d runs" % len(tables))
             if len(tables) > 1:
                 ax.legend(fontsize="small")
     axes[-1, 0].set_xlabel("t")

@@ -466,10 +466,12 @@ def plot_discrete_growth(result):
     return fig
 
 
-def plot_responses(results, columns=None, names=None):
+def plot_responses(results, columns=None, names=None, units=None):
     """Time series t,<names> (ordex-respond's CSV: states then outputs; an input history; a
     closed-loop run) over time, one panel a column, several runs (a list of results) overlaid.
-    COLUMNS picks columns by name; NAMES labels the runs (default: the file names)."""
+    COLUMNS picks columns by name; NAMES labels the runs (default: the file names); UNITS maps
+    column names (and t) to units for the axis labels."""
+    units = units or {}
     if isinstance(results, (dict, Table, str, os.PathLike)):
         results = [results]
     tables = [load(x) for x in results]
@@ -492,14 +494,14 @@ def plot_responses(results, columns=None, names=None):
         ax = axes[a, 0]
         for k, tab in enumerate(tables):
             ax.plot(tab.values[:, 0], tab.column(c), color="C%d" % (k % 10), label=names[k])
-        ax.set_ylabel(c)
+        ax.set_ylabel(_label(c, units))
         ax.grid(True, alpha=0.3)
         if a == 0:
             ax.set_title("time series: %s" % os.path.basename(tables[0].source) if len(tables) == 1
                          else "responses: %d runs" % len(tables))
             if len(tables) > 1:
                 ax.legend(fontsize="small")
-    axes[-1, 0].set_xlabel("t")
+    axes[-1, 0].set_xlabel(_label("t", units))
     return fig
 
 
@@ -513,7 +515,7 @@ def plot_response_summary(result):
         x = np.array([_number(v) for v in run["x_final"]])
         ax.plot(np.arange(len(x)), x, "o", label=os.path.basename(str(run.get("input") or "run %d" % (k + 1))))
     ax.set_xticks(np.arange(len(states)))
-    ax.set_xticklabels(states, rotation=45 if len(states) > 6 else 0)
+    ax.set_xticklabels([_label(x, _units(r)) for x in states], rotation=45 if len(states) > 6 else 0)
     ax.set_ylabel("x(t1)")
     ax.set_title(_title(r, "final states (the time series are in --csv)"))
     ax.legend(fontsize="small")

@@ -1,7 +1,6 @@
 """Shared set-up of the plot and HDF5 tests: where the apps and models are, and running an app."""
 import os
 import subprocess
-import sys
 
 SOURCE_DIR = os.environ.get("ORDEX_SOURCE_DIR",
                             os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__)))))

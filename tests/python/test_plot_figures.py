@@ -155,6 +155,14 @@ class PlotFigures(unittest.TestCase):
             np.testing.assert_array_equal(lines[0][1], first[:, j])
             np.testing.assert_array_equal(lines[1][1], second[:, j])
         self.assertEqual(fig.axes[0].get_lines()[0].get_ydata()[0], 0.2)  # x1(0) = --x0
+        labelled = plot.plot_responses(runs[0], units={"t": "s", "x1": "m"})
+        self.assertEqual([ax.get_ylabel() for ax in labelled.axes], ["x1 [m]", "x2", "y"])
+        self.assertEqual(labelled.axes[-1].get_xlabel(), "t [s]")
+        with open(self.path("regulate.json")) as f:
+            summary = json.load(f)
+        self.assertEqual(plot.plot(summary).axes[0].get_xlabel(), "t")
+        summary["model"]["units"] = {"t": "s"}  # units declared in a summary's header label the axes
+        self.assertEqual(plot.plot(summary).axes[0].get_xlabel(), "t [s]")
         one = plot.plot(runs[0], columns=["y"])
         self.assertEqual(len(one.axes), 1)
         self.assertEqual(one.axes[0].get_ylabel(), "y")

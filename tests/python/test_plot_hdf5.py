@@ -201,6 +201,11 @@ class Hdf5Output(unittest.TestCase):
             self.assertIn(needle, p.stderr)
         with open(model, "rb") as f:
             self.assertEqual(f.read(), before)
+        # A numerical failure half-way (A(t) = 1/(t - 1) at t = 1) leaves no file, complete or not.
+        blowup = self.path("blowup.h5")
+        p = run(["ordex-propagate", "--model", os.path.join(DATA, "cli_blowup.toml"), "--hdf5", blowup], expect=3)
+        self.assertEqual(len(p.stderr.splitlines()), 1, p.stderr)
+        self.assertFalse(os.path.exists(blowup))
         self.assertEqual([x for x in os.listdir(self.dir) if x.startswith(".ordex-")], [])
 
 

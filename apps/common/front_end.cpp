@@ -203,8 +203,6 @@ void SummaryOutput::write(const Json& summary) {
   if (file_) file_->stream() << dump_json(summary, indent_) << "\n";
 }
 
-int json_indent_of_run() { return g_json_indent; }
-
 void SummaryOutput::commit() {
   if (file_) file_->commit();
 }

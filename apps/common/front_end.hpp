@@ -94,9 +94,6 @@ class SummaryOutput {
   int indent_ = -1;
 };
 
-/// The --json-indent of this run (-1: compact), as parse_command_line found it.
-int json_indent_of_run();
-
 /// A CSV at PATH with the header "t,PREFIX_1_1,...,PREFIX_R_C" (row-major, 1-based) for a
 /// matrix time series; null when PATH is empty.
 std::unique_ptr<CsvWriter> open_matrix_csv(const std::string& path, const std::string& prefix, int rows, int cols);

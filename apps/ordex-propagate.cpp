@@ -5,6 +5,7 @@
 #include <iostream>
 
 #include "common/front_end.hpp"
+#include "common/hdf5_output.hpp"
 #include "io/errors.hpp"
 #include "propagation/propagate_report.hpp"
 
@@ -14,8 +15,10 @@ int main(int argc, char** argv) {
   return run_app("ordex-propagate", [&] {
     CommonOptions common;
     bool floquet = false;
+    std::string hdf5;
     po::options_description desc("Options");
     add_common_options(desc, common);
+    add_hdf5_option(desc, hdf5, "t (samples) and phi (samples x n x n) at the --samples times");
     desc.add_options()("floquet", po::bool_switch(&floquet),
                        "Floquet analysis over one period of the model from t0 (--to may be left out)");
     po::variables_map vm;
@@ -32,13 +35,13 @@ int main(int argc, char** argv) {
       return 0;
     AppSetup setup = setup_from_common(common, /*need_window=*/!floquet);
     const System& sys = *setup.system;
-    check_output_paths({common.json, common.csv}, run_inputs(sys));
+    check_output_paths({common.json, common.csv, hdf5}, run_inputs(sys));
     PropagateOptions options;
     options.propagation = setup.propagation;
     options.propagation.progress = progress_reporter("ordex-propagate");
     options.floquet = floquet;
     // Without --csv only Phi(t1, t0) is wanted: no grid, so steps need not stop at samples.
-    options.samples = common.csv.empty() ? 0 : common.samples;
+    options.samples = common.csv.empty() && hdf5.empty() ? 0 : common.samples;
     if (floquet) {
       if (common.from.empty() && !sys.info().window) setup.t0 = 0;
       const double t1 = floquet_window_end(sys, setup.t0);
@@ -50,11 +53,21 @@ int main(int argc, char** argv) {
     // is computed, and both are put in place together at the end.
     SummaryOutput json(common.json);
     std::unique_ptr<CsvWriter> csv = open_matrix_csv(common.csv, "phi", sys.states(), sys.states());
+    Hdf5Output h5(hdf5);
+    const int h5_t = h5.series("t"), h5_phi = h5.series("phi", sys.states(), sys.states());
     PhiSink sink;
-    if (csv) sink = [&](std::size_t, double t, const Eigen::MatrixXd& phi) { write_matrix_row(*csv, t, phi); };
+    if (csv || h5)
+      sink = [&](std::size_t, double t, const Eigen::MatrixXd& phi) {
+        if (csv) write_matrix_row(*csv, t, phi);
+        h5.append_value(h5_t, t);
+        h5.append(h5_phi, phi);
+      };
     const PropagateReport report = propagate(sys, setup.t0, setup.t1, options, sink);
-    json.write(with_app("ordex-propagate", report.to_json()));
+    const Json summary = with_app("ordex-propagate", report.to_json());
+    json.write(summary);
+    h5.attributes(summary, "/", {"phi"});  // phi(t1, t0) is the dataset's last sample
     if (csv) csv->commit();
+    h5.commit();
     json.commit();
     if (report_to_stdout(common)) std::cout << report.brief();
     return 0;

@@ -5,6 +5,7 @@
 #include <set>
 
 #include "common/front_end.hpp"
+#include "common/hdf5_output.hpp"
 #include "common/job_options.hpp"
 #include "io/errors.hpp"
 #include "model/model_file.hpp"
@@ -19,10 +20,13 @@ int main(int argc, char** argv) {
     CommonOptions c;
     RespondFlags flags;
     const std::vector<std::string>& inputs = flags.inputs;
+    std::string hdf5;
     po::options_description desc("Options");
     add_common_options(desc, c, "output times: N equally spaced in the window, both ends included (default: the "
                                 "input's own sample times)");
     add_respond_options(desc, flags, /*several=*/true);
+    add_hdf5_option(desc, hdf5, "each run in a group run_1, run_2, ... (in --input order): t, x (times x states) "
+                    "and y (times x outputs)");
     po::variables_map vm;
     if (!parse_command_line(argc, argv, desc, vm, "ordex-respond",
             "ordex-respond --model PATH --input PATH [--input PATH ...] [options]",
@@ -55,14 +59,31 @@ int main(int argc, char** argv) {
     if (inputs.size() > 1 && !c.csv.empty()) fs::create_directories(c.csv);  // checked as the CSVs' folder
     std::vector<std::string> outputs = csvs;
     outputs.push_back(c.json);
+    outputs.push_back(hdf5);
     check_output_paths(outputs, run_inputs(sys, inputs));
     std::vector<InputHistory> histories;
     for (const std::string& p : inputs) histories.push_back(read_input_history(p, sys));
     SummaryOutput json(c.json);
+    Hdf5Output h5(hdf5);
     const RespondReport rep = respond(sys, histories, o);
     for (const std::string& w : rep.warnings) std::cerr << "ordex-respond: warning: " << w << std::endl;
-    json.write(with_app("ordex-respond", rep.to_json()));
+    const Json summary = with_app("ordex-respond", rep.to_json());
+    json.write(summary);
     for (std::size_t i = 0; i < csvs.size(); ++i) write_run_csv(csvs[i], rep, rep.runs[i]);
+    for (std::size_t i = 0; h5 && i < rep.runs.size(); ++i) {
+      const RunResult& run = rep.runs[i];
+      const std::string group = "run_" + std::to_string(i + 1);
+      h5.vector(group + "/t", run.times);
+      const int hx = h5.series(group + "/x", static_cast<int>(run.states.cols()));
+      const int hy = h5.series(group + "/y", static_cast<int>(run.outputs.cols()));
+      for (Eigen::Index k = 0; k < run.states.rows(); ++k) {
+        h5.append(hx, run.states.row(k).transpose());
+        if (run.outputs.cols() > 0) h5.append(hy, run.outputs.row(k).transpose());
+      }
+      h5.attributes(summary["runs"][i], group);
+    }
+    h5.attributes(summary, "/", {"runs"});
+    h5.commit();
     json.commit();
     if (report_to_stdout(c)) std::cout << rep.brief();
     return 0;

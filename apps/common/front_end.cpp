@@ -25,6 +25,9 @@ const char* const kHardwareCaution =
 
 namespace {
 
+/// The run's --json-indent (set by parse_command_line; -1: compact), the default of SummaryOutput.
+int g_json_indent = -1;
+
 /// True while a progress bar occupies the terminal's last line (an error then starts a new one).
 bool g_bar_open = false;
 
@@ -111,6 +114,9 @@ void add_common_options(po::options_description& desc, CommonOptions& c,
                             : samples_help.c_str())
       ("json", po::value(&c.json)->value_name("PATH"),
        "write the machine-readable summary; '-' writes it to standard output")
+      ("json-indent", po::value(&c.json_indent)->value_name("N"),
+       "indent the JSON summary by N spaces a level (0 to 16; 0 puts one item a line); default compact "
+       "(one line, no spaces: smaller and quicker to load)")
       ("csv", po::value(&c.csv)->value_name("PATH"),
        csv_help.empty() ? "write the time series, a header row first" : csv_help.c_str());
 }
@@ -141,6 +147,13 @@ bool parse_command_line(int argc, char** argv, const po::options_description& de
     return false;
   }
   po::notify(vm);
+  g_json_indent = -1;
+  if (vm.count("json-indent")) {
+    const int indent = vm["json-indent"].as<int>();
+    if (indent < 0 || indent > 16)
+      throw InputError("--json-indent: " + std::to_string(indent) + " is outside [0, 16]");
+    g_json_indent = indent;
+  }
   return true;
 }
 
@@ -219,12 +232,13 @@ void check_output_paths(const std::vector<std::string>& outputs, const std::vect
   check_outputs(outputs, inputs);
 }
 
-SummaryOutput::SummaryOutput(const std::string& path) {
+SummaryOutput::SummaryOutput(const std::string& path, std::optional<int> indent)
+    : indent_(indent.value_or(g_json_indent)) {
   if (!path.empty()) file_ = std::make_unique<OutputFile>(path);
 }
 
 void SummaryOutput::write(const Json& summary) {
-  if (file_) file_->stream() << dump_json(summary) << "\n";
+  if (file_) file_->stream() << dump_json(summary, indent_) << "\n";
 }
 
 void SummaryOutput::commit() {

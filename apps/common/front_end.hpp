@@ -54,10 +54,12 @@ struct CommonOptions {
   int samples = 101;                 ///< --samples
   std::string json;                  ///< --json PATH ("-" = standard output); empty = none
   std::string csv;                   ///< --csv PATH; empty = none
+  int json_indent = -1;              ///< --json-indent N (0..16); -1 (default) = compact JSON
 };
 
-/// Adds --model --set --from --to --method --rtol --atol --samples --json --csv --help --version
-/// to DESC, bound to C. SAMPLES_HELP (CSV_HELP) replaces the default help text of --samples (--csv).
+/// Adds --model --set --from --to --method --rtol --atol --samples --json --json-indent --csv
+/// --help --version to DESC, bound to C. SAMPLES_HELP (CSV_HELP) replaces the default help text
+/// of --samples (--csv).
 void add_common_options(po::options_description& desc, CommonOptions& c,
                         const std::string& samples_help = "", const std::string& csv_help = "");
 
@@ -80,15 +82,18 @@ std::vector<std::string> run_inputs(const System& sys, const std::vector<std::st
 
 /// The --json summary: opened (as a temporary) before the work, so that an unwritable path
 /// fails first; write() writes the summary, commit() puts it in place (OutputFile: "-" is
-/// standard output, a write error is an error). An empty path writes nothing.
+/// standard output, a write error is an error). An empty path writes nothing. The text is
+/// compact unless INDENT (or, when INDENT is not given, this run's --json-indent as parsed by
+/// parse_command_line: so every app honours it without passing it along) asks for indentation.
 class SummaryOutput {
  public:
-  explicit SummaryOutput(const std::string& path);
+  explicit SummaryOutput(const std::string& path, std::optional<int> indent = std::nullopt);
   void write(const Json& summary);
   void commit();
 
  private:
   std::unique_ptr<OutputFile> file_;
+  int indent_ = -1;
 };
 
 /// A CSV at PATH with the header "t,PREFIX_1_1,...,PREFIX_R_C" (row-major, 1-based) for a

@@ -121,14 +121,14 @@ std::string utf8_escaped(const std::string& text) {
   return out;
 }
 
-std::string dump_json(const Json& j) {
+std::string dump_json(const Json& j, int indent) {
   // The common case (every string valid) costs one scan and no copy.
-  return has_invalid_utf8(j) ? utf8_safe(j).dump(2) : j.dump(2);
+  return has_invalid_utf8(j) ? utf8_safe(j).dump(indent) : j.dump(indent);
 }
 
-void write_json_file(const std::string& path, const Json& j) {
+void write_json_file(const std::string& path, const Json& j, int indent) {
   OutputFile f(path);
-  f.stream() << dump_json(j) << "\n";
+  f.stream() << dump_json(j, indent) << "\n";
   f.commit();
 }
 

@@ -18,15 +18,17 @@ Json vector_to_json(const std::vector<double>& v);
 /// A number, or null when non-finite.
 Json number_to_json(double x);
 
-/// J as indented text (2 spaces), a newline not included. Strings that are not valid UTF-8
-/// (a file name in another encoding) are written with each invalid byte as the text \xNN
-/// instead of failing (nlohmann's type_error 316).
-std::string dump_json(const Json& j);
+/// J as text, a newline not included: compact (no spaces or line breaks: large results stay
+/// small and quick to load) when INDENT < 0, the default; otherwise indented by INDENT spaces a
+/// level (0: one item a line). Strings that are not valid UTF-8 (a file name in another
+/// encoding) are written with each invalid byte as the text \xNN instead of failing
+/// (nlohmann's type_error 316).
+std::string dump_json(const Json& j, int indent = -1);
 
 /// TEXT made valid UTF-8: every byte that is not part of a well-formed sequence becomes \xNN.
 std::string utf8_escaped(const std::string& text);
 
-/// Writes J (indented) to PATH atomically; "-" is standard output.
-void write_json_file(const std::string& path, const Json& j);
+/// Writes J (compact, or indented as in dump_json) to PATH atomically; "-" is standard output.
+void write_json_file(const std::string& path, const Json& j, int indent = -1);
 
 }  // namespace ordex

@@ -206,6 +206,8 @@ OutputFile::~OutputFile() {
 
 std::ostream& OutputFile::stream() { return *impl_->os; }
 
+const std::string& OutputFile::temporary_path() const { return impl_->temp; }
+
 void OutputFile::commit() {
   Impl& m = *impl_;
   if (m.committed) return;

@@ -31,6 +31,9 @@ class OutputFile {
   /// InputError "PATH: cannot write (REASON)" and leaves no file.
   void commit();
   const std::string& path() const { return path_; }
+  /// The temporary that commit() renames over path() (empty when written in place: a stream
+  /// or device), for writers that need a file name of their own (the HDF5 library).
+  const std::string& temporary_path() const;
 
  private:
   struct Impl;

@@ -40,7 +40,29 @@ DiscretizeReport discretize(const System& sys, const std::vector<double>& times,
   rep.model.states = sys.states();
   rep.model.inputs = sys.inputs();
   rep.model.times = times;
-  rep.model.steps = builder.steps(times);
+  if (o.keep_steps) rep.model.steps.reserve(times.size() - 1);
+  // The growth over the grid: the product Phi_k ... Phi_0, renormalised as it goes so that an
+  // unstable plant does not overflow (its scale kept as a logarithm).
+  const Eigen::Index n = sys.states();
+  Eigen::MatrixXd product = Eigen::MatrixXd::Identity(n, n), next(n, n), last_phi;
+  double log_scale = 0;
+  builder.for_each_step(times, [&](std::size_t k, const StepMatrices& step) {
+    next.noalias() = step.phi * product;
+    product.swap(next);
+    const double norm = product.norm();
+    if (norm > 0 && std::isfinite(norm)) {
+      product /= norm;
+      log_scale += std::log(norm);
+    }
+    // A reused step (time-invariant grid) repeats the previous matrix: its norm is known.
+    if (n > 0 && !(k > 0 && step.phi.cwiseEqual(last_phi).all())) {
+      last_phi = step.phi;
+      rep.largest_step = std::max(rep.largest_step, Eigen::JacobiSVD<Eigen::MatrixXd>(step.phi).singularValues()(0));
+    }
+    if (o.on_step) o.on_step(k, step);
+    if (o.keep_steps) rep.model.steps.push_back(step);
+  });
+  rep.growth = n > 0 ? std::exp(log_scale + std::log(Eigen::JacobiSVD<Eigen::MatrixXd>(product).singularValues()(0))) : 0;
   rep.method = builder.method();
   rep.propagation = builder.stats();
   rep.computed_steps = builder.computed_steps();
@@ -132,7 +154,7 @@ Json DiscretizeReport::to_json() const {
   j["hold"] = hold_name(m.hold);
   j["states"] = states;
   j["inputs"] = inputs;
-  j["intervals"] = m.steps.size();
+  j["intervals"] = m.times.size() - 1;
   j["times"] = vector_to_json(m.times);
   Json phi = Json::array(), g0 = Json::array(), g1 = Json::array();
   for (const StepMatrices& s : m.steps) {
@@ -151,34 +173,43 @@ Json DiscretizeReport::to_json() const {
   j["interval_steps_computed"] = rep.computed_steps;
   j["interval_steps_reused"] = rep.reused_steps;
   j["time_invariant"] = rep.time_invariant;
+  j["growth"] = number_to_json(rep.growth);
+  j["largest_step"] = number_to_json(rep.largest_step);
   j["seconds"] = rep.seconds;
   return j;
 }
 
-void write_discrete_model_csv(const std::string& path, const DiscreteModel& m) {
-  const int n = m.states, nu = m.inputs;
+DiscreteModelCsv::DiscreteModelCsv(const std::string& path, int n, int nu, Hold hold) : hold_(hold) {
   std::vector<std::string> header{"k", "t_start", "t_end"};
   auto add = [&](const std::vector<std::string>& names) { header.insert(header.end(), names.begin(), names.end()); };
   add(matrix_column_names("phi", n, n));
-  if (m.hold == Hold::Zoh) {
+  if (hold == Hold::Zoh) {
     add(matrix_column_names("gamma", n, nu));
   } else {
     add(matrix_column_names("gamma0", n, nu));
     add(matrix_column_names("gamma1", n, nu));
   }
-  CsvWriter w(path, header);
-  std::vector<double> row;
-  for (std::size_t k = 0; k < m.steps.size(); ++k) {
-    const StepMatrices& s = m.steps[k];
-    row.clear();
-    row.push_back(static_cast<double>(k));
-    row.push_back(s.t_start);
-    row.push_back(s.t_end);
-    append_row_major(row, s.phi);
-    append_row_major(row, s.gamma0);
-    if (m.hold == Hold::Linear) append_row_major(row, s.gamma1);
-    w.row(row);
-  }
+  csv_ = std::make_unique<CsvWriter>(path, header);
+}
+
+DiscreteModelCsv::~DiscreteModelCsv() = default;
+
+void DiscreteModelCsv::row(std::size_t k, const StepMatrices& s) {
+  row_.clear();
+  row_.push_back(static_cast<double>(k));
+  row_.push_back(s.t_start);
+  row_.push_back(s.t_end);
+  append_row_major(row_, s.phi);
+  append_row_major(row_, s.gamma0);
+  if (hold_ == Hold::Linear) append_row_major(row_, s.gamma1);
+  csv_->row(row_);
+}
+
+void DiscreteModelCsv::commit() { csv_->commit(); }
+
+void write_discrete_model_csv(const std::string& path, const DiscreteModel& m) {
+  DiscreteModelCsv w(path, m.states, m.inputs, m.hold);
+  for (std::size_t k = 0; k < m.steps.size(); ++k) w.row(k, m.steps[k]);
   w.commit();
 }
 
@@ -187,32 +218,17 @@ std::string DiscretizeReport::brief() const {
   const DiscreteModel& m = rep.model;
   std::ostringstream s;
   s.precision(6);
-  s << "discrete model: " << m.steps.size() << " intervals from t = " << m.times.front() << " to "
+  s << "discrete model: " << m.times.size() - 1 << " intervals from t = " << m.times.front() << " to "
     << m.times.back() << ", " << m.states << " states, " << m.inputs << " inputs, hold " << hold_name(m.hold)
     << " (" << method_name(rep.method) << ", " << rep.computed_steps << " intervals integrated";
   if (rep.reused_steps) s << ", " << rep.reused_steps << " reused: time-invariant";
   s << ", " << rep.seconds << " s)\n";
-  if (!m.steps.empty()) {
+  if (m.times.size() > 1 && m.states > 0) {
     // For a time-varying plant the eigenvalues of one Phi_k decide nothing about stability;
     // what the grid does to the state is the growth of the product Phi_{N-1} ... Phi_0 =
     // Phi(t_N, t_0), its largest singular value, and the largest gain of a single step.
-    // The product is renormalised as it goes so that an unstable plant does not overflow.
-    const Eigen::Index n = m.steps.front().phi.rows();
-    Eigen::MatrixXd product = Eigen::MatrixXd::Identity(n, n);
-    double log_scale = 0, worst_step = 0;
-    for (const StepMatrices& st : m.steps) {
-      product = st.phi * product;
-      const double norm = product.norm();
-      if (norm > 0 && std::isfinite(norm)) {
-        product /= norm;
-        log_scale += std::log(norm);
-      }
-      worst_step = std::max(worst_step, Eigen::JacobiSVD<Eigen::MatrixXd>(st.phi).singularValues()(0));
-    }
-    const double log_growth =
-        log_scale + std::log(Eigen::JacobiSVD<Eigen::MatrixXd>(product).singularValues()(0));
-    s << "growth over the grid: |Phi(t_N, t_0)| = " << std::exp(log_growth)
-      << " (largest singular value), largest single step |Phi_k| = " << worst_step << "\n"
+    s << "growth over the grid: |Phi(t_N, t_0)| = " << rep.growth
+      << " (largest singular value), largest single step |Phi_k| = " << rep.largest_step << "\n"
       << "  (eigenvalues of a single Phi_k are no stability verdict for a time-varying plant)\n";
   }
   return s.str();

@@ -6,6 +6,8 @@
 // These are the step matrices of step_matrices.hpp, the same ones ordex-respond applies, so
 // the discrete model reproduces the forced response on the same grid.
 #include <Eigen/Dense>
+#include <functional>
+#include <memory>
 #include <string>
 #include <vector>
 
@@ -32,6 +34,13 @@ struct DiscretizeOptions {
   /// For discretize(sys, t0, t1, ...) without a step: this many equally spaced times in the
   /// window, both ends included; default 101. Must lie in [2, 10^7].
   int samples = 101;
+  /// Called with each interval's step as soon as it is computed (k = 0, 1, ...), for writing it
+  /// to a file as it comes; default none.
+  std::function<void(std::size_t k, const StepMatrices& step)> on_step;
+  /// Whether the report keeps every step (DiscreteModel::steps, listed by to_json); default true.
+  /// False (with on_step) keeps memory flat however many intervals the grid has: the report
+  /// then has the grid, the counts and the growth, and no steps.
+  bool keep_steps = true;
   /// Throws InputError naming the field ("DiscretizeOptions::samples = 1 is outside ...").
   void validate() const;
 };
@@ -55,6 +64,9 @@ struct DiscretizeReport {
   long reused_steps = 0;         ///< intervals reused from an equal-length one (time-invariant)
   bool time_invariant = false;   ///< whether the grid was treated as time-invariant
   double seconds = 0;            ///< wall time
+  /// Largest singular value of the product Phi_{K-1} ... Phi_0 = Phi(t_K, t_0) (the growth over
+  /// the grid), and of the largest single step Phi_k; computed as the steps come, kept or not.
+  double growth = 0, largest_step = 0;
 
   /// The summary (CONTRACT.md): the header, then hold, names, intervals, times, phi (a list over
   /// the intervals of n x n), gamma (zoh) or gamma0 and gamma1 (linear), n x m each, and stats.
@@ -86,4 +98,20 @@ Eigen::MatrixXd simulate_discrete(const DiscreteModel& model, const Eigen::Vecto
 /// CSV, one row an interval: k,t_start,t_end,phi_1_1..phi_n_n, then gamma_1_1..gamma_n_m
 /// (zoh) or gamma0_1_1..gamma0_n_m,gamma1_1_1..gamma1_n_m (linear); row-major, 1-based.
 void write_discrete_model_csv(const std::string& path, const DiscreteModel& model);
+
+class CsvWriter;
+/// The same CSV written one interval at a time (from DiscretizeOptions::on_step), so that the
+/// steps need not be kept; commit() puts the file in place.
+class DiscreteModelCsv {
+ public:
+  DiscreteModelCsv(const std::string& path, int states, int inputs, Hold hold);
+  ~DiscreteModelCsv();
+  void row(std::size_t k, const StepMatrices& step);
+  void commit();
+
+ private:
+  Hold hold_;
+  std::unique_ptr<CsvWriter> csv_;
+  std::vector<double> row_;
+};
 }  // namespace ordex

@@ -126,15 +126,21 @@ RegulatorReport regulate(const System& sys, double t0, double t1, const Regulato
   GainEvaluator gains(sys, w, sol);
   Eigen::MatrixXd K(m, n);
   r.times = times;
-  r.gains.reserve(times.size());
-  r.P.reserve(times.size());
+  if (options.keep_schedule) {
+    r.gains.reserve(times.size());
+    r.P.reserve(times.size());
+  }
   for (std::size_t k = 0; k < times.size(); ++k) {
     gains.K_at(times[k], K);
     require_finite_matrix(K, "gain K", times[k]);
-    r.gains.push_back(K);
-    r.P.push_back(sol.P[sol.output_index[k]]);
+    if (k == 0) r.K0 = K;
+    const Eigen::MatrixXd& P = sol.P[sol.output_index[k]];
+    if (options.on_sample) options.on_sample(k, times[k], K, P);
+    if (options.keep_schedule) {
+      r.gains.push_back(K);
+      r.P.push_back(P);
+    }
   }
-  r.K0 = r.gains.front();
   if (options.x0) r.cost_predicted = options.x0->dot(r.P0 * *options.x0);
   if (options.check_closed_loop) r.closed_loop = check_closed_loop(sys, w, sol, times, options);
   return r;

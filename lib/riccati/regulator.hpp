@@ -6,6 +6,7 @@
 // (RegulatorOptions::check_max_steps); when it fails the gains are still returned and the report
 // says the check failed and why (ClosedLoopCheck::status, reason).
 #include <Eigen/Dense>
+#include <functional>
 #include <optional>
 #include <string>
 #include <vector>
@@ -38,6 +39,12 @@ struct RegulatorOptions {
   /// Initial state of the closed-loop run; default none (no run, no costs). Its size must be the
   /// number of states and its entries finite.
   std::optional<Eigen::VectorXd> x0;
+  /// Called with each sample of the schedule as it is evaluated: index k, time, K (m x n) and
+  /// P (n x n), for writing it to a file as it comes; default none.
+  std::function<void(std::size_t k, double t, const Eigen::MatrixXd& K, const Eigen::MatrixXd& P)> on_sample;
+  /// Whether the report keeps the schedule (RegulatorReport::gains and P, listed by to_json and
+  /// the CSV writers); default true. False (with on_sample) leaves them empty; K0 and P0 stay.
+  bool keep_schedule = true;
   /// Throws InputError naming the field ("RegulatorOptions::samples = 1 is outside [2, 10000000]").
   void validate() const;
 };

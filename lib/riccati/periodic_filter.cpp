@@ -119,6 +119,11 @@ PeriodicFilterSolution periodic_filter(const System& sys, double t0, const Weigh
   if (!r.closed_loop.floquet)
     throw NumericalError("the closed loop of the periodic filter could not be checked: " + r.closed_loop.reason);
   f.closed_loop = r.closed_loop.floquet->floquet;
+  if (!f.closed_loop.stable)
+    throw NumericalError("no stabilizing periodic solution of the filter: A - L C keeps the Floquet multiplier of "
+                         "modulus " + format_number(f.closed_loop.largest_modulus) +
+                         " outside the unit circle (not detectable or not stabilizable from the noise)" +
+                         (f.steady.note.empty() ? "" : "; " + f.steady.note));
   f.open_loop = f.steady.open_loop;
   return f;
 }

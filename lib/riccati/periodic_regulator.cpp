@@ -26,7 +26,14 @@ PeriodicRegulatorReport regulate_periodic(const System& sys, double t0, const Re
   RegulatorOptions one = options;
   w.Qf = WeightMatrix::constant(r.steady.P0, "periodic P(t0)");
   one.weights = w;
+  one.check_closed_loop = true;  // the multipliers are part of the answer, and its proof
   r.regulator = regulate(sys, t0, t0 + r.steady.period, one);
+  const auto& f = r.regulator.closed_loop.floquet;
+  if (f && !f->floquet.stable)
+    throw NumericalError("no stabilizing periodic solution: the periodic solution found leaves the closed-loop "
+                         "Floquet multiplier " + format_number(std::abs(f->floquet.multipliers(0))) +
+                         " (modulus) outside the unit circle (not stabilizable or not detectable)" +
+                         (r.steady.note.empty() ? "" : "; " + r.steady.note));
   return r;
 }
 

@@ -1,5 +1,6 @@
 #include "riccati/periodic_riccati.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <complex>
 #include <memory>
@@ -86,7 +87,9 @@ std::string words_cannot(PeriodicRole role) {
 }
 
 double relative_gap(const Eigen::MatrixXd& a, const Eigen::MatrixXd& b) {
-  return (a - b).cwiseAbs().maxCoeff() / std::max(b.cwiseAbs().maxCoeff(), 1e-300);
+  // Relative to the larger of the two, so that a start from P = 0 gives a gap of at most 1.
+  const double scale = std::max({a.cwiseAbs().maxCoeff(), b.cwiseAbs().maxCoeff(), 1e-300});
+  return (a - b).cwiseAbs().maxCoeff() / scale;
 }
 
 }  // namespace
@@ -139,23 +142,37 @@ PeriodicSteadyState periodic_steady_state(const System& sys, const Weights& w, d
   st.monodromy_norm = M.cwiseAbs().maxCoeff();
   const StableSubspace s = stable_subspace(M, options.unit_margin);
   st.hamiltonian_multipliers = s.eigenvalues;
-  if (s.on_circle > 0 || s.inside != n) throw_on_circle(s, st.open_loop, role, options.unit_margin);
-  st.x1_rcond = s.x1_rcond;
-  if (s.P.size() == 0) throw_not_stabilizable(s, M, st.open_loop, role);
-  st.imaginary_part = s.imaginary_part;
-  st.asymmetry = s.asymmetry;
-
-  // P must be positive semidefinite; round-off may leave tiny negative eigenvalues, which are
-  // set to zero so that the pass's terminal value passes the weights' check.
-  Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(s.P);
-  const double top = std::max(es.eigenvalues().cwiseAbs().maxCoeff(), 1e-300);
-  st.smallest_eigenvalue = es.eigenvalues().minCoeff() / top;
-  if (st.smallest_eigenvalue < -1e-6)
-    throw NumericalError("the periodic solution from the stable subspace is not positive semidefinite (smallest "
-                         "eigenvalue " + format_number(es.eigenvalues().minCoeff()) + ", largest " + format_number(top) +
-                         "): the subspace is ill-determined; try tighter tolerances (--rtol) ");
-  st.P0_subspace = es.eigenvectors() * es.eigenvalues().cwiseMax(0.0).asDiagonal() * es.eigenvectors().transpose();
-  st.P0_subspace = (0.5 * (st.P0_subspace + st.P0_subspace.transpose())).eval();
+  if (s.on_circle > 0) throw_on_circle(s, st.open_loop, role, options.unit_margin);
+  // No multiplier near the circle but not n inside: the product is too ill-conditioned for double
+  // precision to separate the stable multipliers (they are lost below round-off of the largest).
+  const bool separated = s.inside == n;
+  std::string fallback;
+  if (separated) {
+    st.x1_rcond = s.x1_rcond;
+    if (s.P.size() == 0) throw_not_stabilizable(s, M, st.open_loop, role);
+    st.imaginary_part = s.imaginary_part;
+    st.asymmetry = s.asymmetry;
+    // P must be positive semidefinite; round-off may leave tiny negative eigenvalues, which are
+    // set to zero so that the pass's terminal value passes the weights' check.
+    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(s.P);
+    const double top = std::max(es.eigenvalues().cwiseAbs().maxCoeff(), 1e-300);
+    st.smallest_eigenvalue = es.eigenvalues().minCoeff() / top;
+    if (st.smallest_eigenvalue < -1e-6)
+      throw NumericalError("the periodic solution from the stable subspace is not positive semidefinite (smallest "
+                           "eigenvalue " + format_number(es.eigenvalues().minCoeff()) + ", largest " +
+                           format_number(top) + "): the subspace is ill-determined; try tighter tolerances (--rtol)");
+    st.P0_subspace = es.eigenvectors() * es.eigenvalues().cwiseMax(0.0).asDiagonal() * es.eigenvectors().transpose();
+    st.P0_subspace = (0.5 * (st.P0_subspace + st.P0_subspace.transpose())).eval();
+  } else {
+    // The backward Riccati flow from P = 0 (the finite-horizon solution) tends to the stabilizing
+    // solution when one exists; over a long period a few passes reach it. The caller checks that
+    // the closed loop it gives is stable.
+    st.P0_subspace = Eigen::MatrixXd::Zero(n, n);
+    fallback = "the stable subspace of the Hamiltonian monodromy could not be separated in double precision (" +
+               std::to_string(s.inside) + " of " + std::to_string(2 * n) + " multipliers found inside the unit "
+               "circle, max |M| = " + format_number(st.monodromy_norm) + "): P(t0) is the limit of backward passes "
+               "over one period from P = 0, and stabilizability is judged by the closed loop it gives";
+  }
 
   // 2. Backward passes over one period until P(t0) comes back to itself.
   Weights pass = w;
@@ -180,7 +197,9 @@ PeriodicSteadyState periodic_steady_state(const System& sys, const Weights& w, d
                          "; tolerance PeriodicOptions::periodicity_tolerance = " +
                          format_number(options.periodicity_tolerance) + ")");
   st.P0 = P;
-  if (st.passes > 1)
+  if (!fallback.empty())
+    st.note = fallback;
+  else if (st.passes > 1)
     st.note = "the stable subspace of the Hamiltonian monodromy was ill-determined (periodicity gap " +
               format_number(st.first_gap) + ", max |M| = " + format_number(st.monodromy_norm) +
               "); P(t0) was refined by " + std::to_string(st.passes - 1) + " backward passes over one period";

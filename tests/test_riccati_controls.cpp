@@ -233,3 +233,19 @@ B = [[0], [1], [0]]
   EXPECT_NE(r.err.find("1.874"), std::string::npos) << r.err;
   EXPECT_NE(r.err.find("not stabilizable"), std::string::npos) << r.err;
 }
+
+TEST(RegulatePeriodicApp, OrbitOverflowingMonodromyFallsBackAndChecksTheClosedLoop) {
+  // Over one orbit (about 5500 s) with the default weights the Hamiltonian monodromy overflows;
+  // the passes from P = 0 reach the periodic solution and the closed loop is stable.
+  const std::string model = std::string(ORDEX_MODELS_DIR) + "/orbit_relative_motion.toml";
+  const nlohmann::json j = app_json("ordex-regulate", "--model " + model + " --periodic --samples 3");
+  EXPECT_TRUE(j["floquet"]["stable"].get<bool>());
+  EXPECT_LE(j["periodic"]["periodicity_gap"].get<double>(), 1e-6);
+  EXPECT_NE(j["periodic"]["note"].get<std::string>().find("overflowed"), std::string::npos);
+  // With only the along-track control the cross-track oscillation (multiplier on the unit circle)
+  // cannot be stabilized (Hill's equations decouple it): exit 3, one line.
+  auto r = run_app("ordex-regulate", "--model " + model + " --periodic --controls ay --samples 3 --json -");
+  EXPECT_EQ(r.exit_code, 3) << r.err;
+  EXPECT_NE(r.err.find("not stabilizable"), std::string::npos) << r.err;
+  EXPECT_EQ(ordex_test::line_count(r.err), 1);
+}

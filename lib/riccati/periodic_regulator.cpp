@@ -48,7 +48,7 @@ Json PeriodicRegulatorReport::to_json() const {
   p["x1_rcond"] = steady.x1_rcond;
   p["imaginary_part"] = steady.imaginary_part;
   p["asymmetry"] = steady.asymmetry;
-  p["monodromy_norm"] = steady.monodromy_norm;
+  p["monodromy_norm"] = number_to_json(steady.monodromy_norm);
   p["hamiltonian_multipliers"] = multipliers_json(steady.hamiltonian_multipliers);
   if (!steady.note.empty()) p["note"] = steady.note;
   j["periodic"] = p;

@@ -115,9 +115,14 @@ PeriodicSteadyState periodic_steady_state(const System& sys, const Weights& w, d
   st.period = T;
 
   // The plant's own multipliers, to name a mode in messages and for the report.
-  {
+  // (An open loop that overflows over one period is reported with no multipliers.)
+  try {
     Propagator plant(state_generator(sys), riccati.propagation);
     st.open_loop = floquet_analysis(plant.transition(t0, t1), T);
+  } catch (const NumericalError&) {
+    st.open_loop.period = T;
+    st.open_loop.largest_modulus = INFINITY;
+    st.open_loop.stable = false;
   }
 
   // 1. The Hamiltonian's monodromy and its stable subspace.
@@ -134,44 +139,57 @@ PeriodicSteadyState periodic_steady_state(const System& sys, const Weights& w, d
   engine.progress = {};
   engine.use_period = false;  // one period only
   Propagator prop(g, engine);
-  const Eigen::MatrixXd M = prop.transition(t0, t1);
+  // Over a long period the monodromy can overflow (its entries grow like exp(2 |lambda| T)); the
+  // passes from P = 0 below still reach the solution then, and the note says why they were used.
+  Eigen::MatrixXd M;
+  std::string overflow;
+  try {
+    M = prop.transition(t0, t1);
+    if (!M.allFinite()) overflow = "it is not finite";
+  } catch (const NumericalError& e) {
+    overflow = e.what();
+  }
   st.monodromy_stats = prop.stats();
-  if (!M.allFinite())
-    throw NumericalError("the Hamiltonian monodromy over one period is not finite (the period is too long for one "
-                         "product; the plant grows or decays by more than double precision holds)");
-  st.monodromy_norm = M.cwiseAbs().maxCoeff();
-  const StableSubspace s = stable_subspace(M, options.unit_margin);
-  st.hamiltonian_multipliers = s.eigenvalues;
-  if (s.on_circle > 0) throw_on_circle(s, st.open_loop, role, options.unit_margin);
-  // No multiplier near the circle but not n inside: the product is too ill-conditioned for double
-  // precision to separate the stable multipliers (they are lost below round-off of the largest).
-  const bool separated = s.inside == n;
   std::string fallback;
-  if (separated) {
-    st.x1_rcond = s.x1_rcond;
-    if (s.P.size() == 0) throw_not_stabilizable(s, M, st.open_loop, role);
-    st.imaginary_part = s.imaginary_part;
-    st.asymmetry = s.asymmetry;
-    // P must be positive semidefinite; round-off may leave tiny negative eigenvalues, which are
-    // set to zero so that the pass's terminal value passes the weights' check.
-    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(s.P);
-    const double top = std::max(es.eigenvalues().cwiseAbs().maxCoeff(), 1e-300);
-    st.smallest_eigenvalue = es.eigenvalues().minCoeff() / top;
-    if (st.smallest_eigenvalue < -1e-6)
-      throw NumericalError("the periodic solution from the stable subspace is not positive semidefinite (smallest "
-                           "eigenvalue " + format_number(es.eigenvalues().minCoeff()) + ", largest " +
-                           format_number(top) + "): the subspace is ill-determined; try tighter tolerances (--rtol)");
-    st.P0_subspace = es.eigenvectors() * es.eigenvalues().cwiseMax(0.0).asDiagonal() * es.eigenvectors().transpose();
-    st.P0_subspace = (0.5 * (st.P0_subspace + st.P0_subspace.transpose())).eval();
-  } else {
-    // The backward Riccati flow from P = 0 (the finite-horizon solution) tends to the stabilizing
-    // solution when one exists; over a long period a few passes reach it. The caller checks that
-    // the closed loop it gives is stable.
+  if (!overflow.empty()) {
+    st.monodromy_norm = INFINITY;
     st.P0_subspace = Eigen::MatrixXd::Zero(n, n);
-    fallback = "the stable subspace of the Hamiltonian monodromy could not be separated in double precision (" +
-               std::to_string(s.inside) + " of " + std::to_string(2 * n) + " multipliers found inside the unit "
-               "circle, max |M| = " + format_number(st.monodromy_norm) + "): P(t0) is the limit of backward passes "
-               "over one period from P = 0, and stabilizability is judged by the closed loop it gives";
+    fallback = "the Hamiltonian monodromy over one period overflowed (" + overflow + "): P(t0) is the limit of "
+               "backward passes over one period from P = 0, and stabilizability is judged by the closed loop it gives";
+  } else {
+    st.monodromy_norm = M.cwiseAbs().maxCoeff();
+    const StableSubspace s = stable_subspace(M, options.unit_margin);
+    st.hamiltonian_multipliers = s.eigenvalues;
+    if (s.on_circle > 0) throw_on_circle(s, st.open_loop, role, options.unit_margin);
+    // No multiplier near the circle but not n inside: the product is too ill-conditioned for double
+    // precision to separate the stable multipliers (they are lost below round-off of the largest).
+    const bool separated = s.inside == n;
+    if (separated) {
+      st.x1_rcond = s.x1_rcond;
+      if (s.P.size() == 0) throw_not_stabilizable(s, M, st.open_loop, role);
+      st.imaginary_part = s.imaginary_part;
+      st.asymmetry = s.asymmetry;
+      // P must be positive semidefinite; round-off may leave tiny negative eigenvalues, which are
+      // set to zero so that the pass's terminal value passes the weights' check.
+      Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(s.P);
+      const double top = std::max(es.eigenvalues().cwiseAbs().maxCoeff(), 1e-300);
+      st.smallest_eigenvalue = es.eigenvalues().minCoeff() / top;
+      if (st.smallest_eigenvalue < -1e-6)
+        throw NumericalError("the periodic solution from the stable subspace is not positive semidefinite (smallest "
+                             "eigenvalue " + format_number(es.eigenvalues().minCoeff()) + ", largest " +
+                             format_number(top) + "): the subspace is ill-determined; try tighter tolerances (--rtol)");
+      st.P0_subspace = es.eigenvectors() * es.eigenvalues().cwiseMax(0.0).asDiagonal() * es.eigenvectors().transpose();
+      st.P0_subspace = (0.5 * (st.P0_subspace + st.P0_subspace.transpose())).eval();
+    } else {
+      // The backward Riccati flow from P = 0 (the finite-horizon solution) tends to the stabilizing
+      // solution when one exists; over a long period a few passes reach it. The caller checks that
+      // the closed loop it gives is stable.
+      st.P0_subspace = Eigen::MatrixXd::Zero(n, n);
+      fallback = "the stable subspace of the Hamiltonian monodromy could not be separated in double precision (" +
+                 std::to_string(s.inside) + " of " + std::to_string(2 * n) + " multipliers found inside the unit "
+                 "circle, max |M| = " + format_number(st.monodromy_norm) + "): P(t0) is the limit of backward passes "
+                 "over one period from P = 0, and stabilizability is judged by the closed loop it gives";
+    }
   }
 
   // 2. Backward passes over one period until P(t0) comes back to itself.
@@ -195,7 +213,10 @@ PeriodicSteadyState periodic_steady_state(const System& sys, const Weights& w, d
                          format_number(st.gap) + " after " + std::to_string(st.passes) +
                          " backward passes (first " + format_number(st.first_gap) +
                          "; tolerance PeriodicOptions::periodicity_tolerance = " +
-                         format_number(options.periodicity_tolerance) + ")");
+                         format_number(options.periodicity_tolerance) + ")" +
+                         (fallback.empty() ? std::string()
+                                           : "; " + fallback + " (a P that keeps growing from pass to pass means a mode "
+                                             "that cannot be stabilized: not stabilizable or not detectable)"));
   st.P0 = P;
   if (!fallback.empty())
     st.note = fallback;

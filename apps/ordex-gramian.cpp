@@ -6,6 +6,7 @@
 #include "common/job_options.hpp"
 #include "gramian/report.hpp"
 #include "io/errors.hpp"
+#include "model/input_selection.hpp"
 
 namespace {
 
@@ -39,7 +40,7 @@ int main(int argc, char** argv) {
     using namespace ordex;
     CommonOptions common;
     GramianFlags flags;
-    std::string x0, xf, input_out;
+    std::string x0, xf, input_out, controls;
     GramianJobOptions o;
     ProfileOptions profile;
     po::options_description desc("Options");
@@ -55,6 +56,8 @@ int main(int argc, char** argv) {
         ("stride", po::value(&profile.stride)->value_name("S"), "distance between window starts (default L/10)")
         ("profile-check", po::value(&profile.check_fraction)->value_name("F")->default_value(profile.check_fraction, "1e-3"),
          "largest estimated relative error of a window read off by difference before it is recomposed from its steps")
+        ("controls", po::value(&controls)->value_name("NAMES"), "comma-separated input names that are controls: the "
+         "Gramian and the transfer use only these columns of B (default: all inputs)")
         ("threads", po::value(&o.gramian.threads)->value_name("N")->default_value(o.gramian.threads),
          "threads for the block sweep and the windows");
     po::variables_map vm;
@@ -67,7 +70,11 @@ int main(int argc, char** argv) {
     apply_gramian_flags(flags, o);
     AppSetup setup = setup_from_common(common);
     require_forward_window(setup);
-    const System& sys = *setup.system;
+    // --controls: the job sees only the named inputs (the others are not controls).
+    std::unique_ptr<InputSelection> selection;
+    if (vm.count("controls"))
+      selection = std::make_unique<InputSelection>(*setup.system, parse_input_names(*setup.system, controls, "--controls"));
+    const System& sys = selection ? static_cast<const System&>(*selection) : *setup.system;
     check_output_paths({common.json, common.csv, input_out}, run_inputs(sys));
     const int n = sys.states();
     o.gramian.propagation = setup.propagation;
@@ -104,6 +111,7 @@ int main(int argc, char** argv) {
       for (std::size_t k = 0; k < report.transfer->times.size(); ++k)
         inputs_csv->row(report.transfer->times[k], report.transfer->inputs.row(static_cast<Eigen::Index>(k)).transpose());
     Json summary = with_app("ordex-gramian", report.to_json());
+    if (selection) summary["controls"] = sys.info().input_names;
     if (report.transfer) summary["caution"] = kHardwareCaution;  // steering inputs can drive hardware
     json.write(summary);
     if (csv) csv->commit();

@@ -29,15 +29,17 @@ const FlagNames& regulate_flag_names() {
   static const FlagNames names = {{"RegulatorOptions::x0", "--x0"}, {"RegulatorOptions::samples", "--samples"},
                                       {"RegulatorOptions::check_max_steps", "--check-steps"},
                                       {"RiccatiOptions::solver", "--solver"},
-                                      {"RiccatiOptions::dense_intervals", "--dense"}};
+                                      {"RiccatiOptions::dense_intervals", "--dense"},
+                                      {"PeriodicOptions::periodicity_tolerance", "--periodic-tol"}};
   return names;
 }
 
 void add_regulate_options(po::options_description& desc, RegulateFlags& f, RegulatorOptions& o) {
   desc.add_options()
       ("weights", po::value(&f.weights)->value_name("PATH"), "weights file (TOML) with Q, R, Qf and optional N: "
-       "lists of rows, or flat lists meaning diagonals; entries numbers or expressions of t. Default Q = I, "
-       "R = I, Qf = 0, N = 0")
+       "lists of rows, or flat lists meaning diagonals; entries numbers or expressions of t and the model's "
+       "parameters, definitions and table columns. Default Q = I, R = I, Qf = 0, N = 0. Optional Qy (outputs x "
+       "outputs): the cost y'Qy y with y = Cx + Du, added as C'QyC to Q, D'QyD to R and C'QyD to N")
       ("solver", po::value(&f.solver)->value_name("NAME")->default_value(f.solver), "ode: the Riccati equation with "
        "CVODE BDF; hamiltonian: the engine (--method) propagates the Hamiltonian one interval at a time")
       ("x0", po::value(&f.x0)->value_name("V"), "initial state (comma-separated): simulate the closed loop "
@@ -51,7 +53,7 @@ void add_regulate_options(po::options_description& desc, RegulateFlags& f, Regul
 
 void apply_regulate_flags(const RegulateFlags& f, const po::variables_map& vm, const System& sys,
                           const AppSetup& setup, RegulatorOptions& o) {
-  if (vm.count("weights")) o.weights = load_weights(f.weights, sys.states(), sys.inputs());
+  if (vm.count("weights")) o.weights = load_weights(f.weights, sys);  // entries may use the model's symbols
   o.riccati.solver = parse_solver(f.solver);
   o.riccati.propagation = setup.propagation;
   o.check_closed_loop = !vm.count("no-check");

@@ -5,6 +5,8 @@
 
 #include "io/errors.hpp"
 #include "io/input_file.hpp"
+#include "model/expression_system.hpp"
+#include "model/input_selection.hpp"
 #include "riccati/time_expression.hpp"
 #include "riccati/weight_reading.hpp"
 
@@ -60,14 +62,15 @@ struct Entry {
 
 std::string where(const std::string& path, const std::string& key) { return path + ": " + key; }
 
-double entry_value(const toml::node& node, const std::string& what, std::shared_ptr<TimeExpression>& expr) {
+double entry_value(const toml::node& node, const std::string& what, std::shared_ptr<TimeExpression>& expr,
+                   const ExpressionSymbols* symbols) {
   if (auto v = node.as_integer()) return static_cast<double>(v->get());
   if (auto v = node.as_floating_point()) {
     if (!std::isfinite(v->get())) throw InputError(what + ": not a finite number");
     return v->get();
   }
   if (auto v = node.as_string()) {
-    auto e = std::make_shared<TimeExpression>(v->get(), what);
+    auto e = std::make_shared<TimeExpression>(v->get(), what, symbols);
     if (e->uses_t()) {
       expr = e;
       return 0.0;
@@ -77,13 +80,9 @@ double entry_value(const toml::node& node, const std::string& what, std::shared_
   throw InputError(what + ": expected a number or an expression string");
 }
 
-}  // namespace
-
-namespace weight_detail {
-
 // Reads KEY as a ROWS x COLS matrix (list of rows) or, when square, a flat list of the diagonal.
-WeightMatrix read_weight_matrix(const toml::node& node, const std::string& path, const std::string& key,
-                         int rows, int cols) {
+WeightMatrix read_matrix(const toml::node& node, const std::string& path, const std::string& key,
+                         int rows, int cols, const ExpressionSymbols* symbols) {
   const std::string name = where(path, key);
   const toml::array* arr = node.as_array();
   if (!arr) throw InputError(name + ": expected a matrix (a list of rows) or a flat list (a diagonal)");
@@ -101,7 +100,7 @@ WeightMatrix read_weight_matrix(const toml::node& node, const std::string& path,
       const std::string what = name + "[" + std::to_string(i + 1) + "]";
       if ((*arr)[i].is_array()) throw InputError(what + ": mixes rows and numbers");
       Entry e{i, i, nullptr};
-      value(i, i) = entry_value((*arr)[i], what, e.expr);
+      value(i, i) = entry_value((*arr)[i], what, e.expr, symbols);
       if (e.expr) exprs.push_back(e);
     }
   } else {
@@ -117,7 +116,7 @@ WeightMatrix read_weight_matrix(const toml::node& node, const std::string& path,
       for (int j = 0; j < cols; ++j) {
         const std::string what = rname + "[" + std::to_string(j + 1) + "]";
         Entry e{i, j, nullptr};
-        value(i, j) = entry_value((*row)[j], what, e.expr);
+        value(i, j) = entry_value((*row)[j], what, e.expr, symbols);
         if (e.expr) exprs.push_back(e);
       }
     }
@@ -131,38 +130,80 @@ WeightMatrix read_weight_matrix(const toml::node& node, const std::string& path,
   return WeightMatrix::function(rows, cols, fill, name);
 }
 
-toml::table parse_toml_text(const std::string& text, const std::string& path) {
-  try {
-    return toml::parse(text, path);
-  } catch (const toml::parse_error& e) {
-    throw InputError(path + ":" + std::to_string(e.source().begin.line) + ": not valid TOML: " +
-                     std::string(e.description()));
-  }
+// Q += C' Qy C, R += D' Qy D, N += C' Qy D: the cost y'Qy y with y = C x + D u written out.
+void add_output_weight(Weights& w, const WeightMatrix& Qy, const System& sys) {
+  const int n = sys.states(), m = sys.inputs(), p = sys.outputs();
+  struct Parts {
+    WeightMatrix Q, R, N, Qy;
+    const System* sys;
+    Eigen::MatrixXd C, D, Y;
+  };
+  auto parts = std::make_shared<Parts>(Parts{w.Q, w.R, w.N, Qy, &sys, Eigen::MatrixXd(p, n), Eigen::MatrixXd(p, m),
+                                             Eigen::MatrixXd(p, p)});
+  // One evaluation of C, D and Qy per call; the plant is fixed, so constants fold once.
+  auto load = [](Parts& q, double t) {
+    q.sys->C(t, q.C);
+    q.sys->D(t, q.D);
+    q.Qy.eval(t, q.Y);
+  };
+  const std::string suffix = " + output weight " + Qy.name();
+  auto Q = [parts, load](double t, MatrixRef out) {
+    load(*parts, t);
+    parts->Q.eval(t, out);
+    out.noalias() += parts->C.transpose() * parts->Y * parts->C;
+  };
+  auto R = [parts, load](double t, MatrixRef out) {
+    load(*parts, t);
+    parts->R.eval(t, out);
+    out.noalias() += parts->D.transpose() * parts->Y * parts->D;
+  };
+  auto N = [parts, load](double t, MatrixRef out) {
+    load(*parts, t);
+    parts->N.eval(t, out);
+    out.noalias() += parts->C.transpose() * parts->Y * parts->D;
+  };
+  const bool constant = sys.time_invariant() && Qy.is_constant() && w.Q.is_constant() && w.R.is_constant() &&
+                        w.N.is_constant();
+  auto make = [constant](int r, int c, WeightMatrix::Fill f, const std::string& name) {
+    if (!constant) return WeightMatrix::function(r, c, f, name);
+    Eigen::MatrixXd v(r, c);
+    f(0.0, v);
+    return WeightMatrix::constant(v, name);
+  };
+  const std::string qn = w.Q.name() + suffix, rn = w.R.name() + suffix, nn = w.N.name() + suffix;
+  w.Q = make(n, n, Q, qn);
+  w.R = make(m, m, R, rn);
+  w.N = make(n, m, N, nn);
+  w.has_cross = true;
 }
 
-}  // namespace weight_detail
-
-using namespace weight_detail;
-
-Weights load_weights(const std::string& path, int n, int m) {
+Weights load_weights_from(const std::string& path, int n, int m, const System* sys, const ExpressionSymbols* symbols) {
   const std::string text = read_text_file(path, "weights file", input_limits().max_toml_bytes);
-  const toml::table table = parse_toml_text(text, path);
+  const toml::table table = weight_detail::parse_toml_text(text, path);
   Weights w = default_weights(n, m);
   w.source = path;
   for (const auto& [k, node] : table) {
     const std::string key(k.str());
     if (key == "Q")
-      w.Q = read_weight_matrix(node, path, key, n, n);
+      w.Q = read_matrix(node, path, key, n, n, symbols);
     else if (key == "R")
-      w.R = read_weight_matrix(node, path, key, m, m);
+      w.R = read_matrix(node, path, key, m, m, symbols);
     else if (key == "Qf")
-      w.Qf = read_weight_matrix(node, path, key, n, n);
+      w.Qf = read_matrix(node, path, key, n, n, symbols);
     else if (key == "N") {
-      w.N = read_weight_matrix(node, path, key, n, m);
+      w.N = read_matrix(node, path, key, n, m, symbols);
       w.has_cross = true;
+    } else if (key == "Qy" && sys) {
+      if (sys->outputs() < 1) throw InputError(path + ": Qy: the model has no outputs to weigh");
     } else {
-      throw InputError(path + ": unknown key " + quote_clipped(key) + " (a weights file has Q, R, Qf and N)");
+      throw InputError(path + ": unknown key " + quote_clipped(key) + " (a weights file has Q, R, Qf, N" +
+                       (sys ? " and Qy)" : " and, with the model, Qy)"));
     }
+  }
+  // Qy after the others, so that it adds to them whatever the order of the keys.
+  if (sys && table.contains("Qy")) {
+    const int p = sys->outputs();
+    add_output_weight(w, read_matrix(*table.get("Qy"), path, "Qy", p, p, symbols), *sys);
   }
   const std::pair<const char*, const char*> defaults[] = {{"Q", "Q = I"}, {"R", "R = I"}, {"Qf", "Qf = 0"}};
   std::string used;
@@ -176,6 +217,29 @@ Weights load_weights(const std::string& path, int n, int m) {
   else if (!used.empty())
     w.note = path + ": default" + (w.defaults_used.size() > 1 ? "s " : " ") + used + " used";
   return w;
+}
+
+}  // namespace
+
+ExpressionSymbols model_symbols(const System& sys) {
+  const System* plant = &sys;
+  if (auto sel = dynamic_cast<const InputSelection*>(plant)) plant = &sel->plant();
+  ExpressionSymbols s;
+  s.constants = plant->info().parameters;
+  if (auto es = dynamic_cast<const ExpressionSystem*>(plant)) {
+    for (const DefineSpec& d : es->spec().defines) s.varying.push_back(d.name);
+    for (const TableSpec& t : es->spec().tables)
+      for (const std::string& c : t.table->columns()) s.varying.push_back(c);
+    s.value = [es](const std::string& name, double t) { return es->symbol_value(name, t); };
+  }
+  return s;
+}
+
+Weights load_weights(const std::string& path, int n, int m) { return load_weights_from(path, n, m, nullptr, nullptr); }
+
+Weights load_weights(const std::string& path, const System& sys) {
+  const ExpressionSymbols symbols = model_symbols(sys);
+  return load_weights_from(path, sys.states(), sys.inputs(), &sys, &symbols);
 }
 
 void WeightCheckOptions::validate() const {
@@ -199,6 +263,20 @@ void require_size(const WeightMatrix& w, int rows, int cols, const std::string& 
 
 namespace weight_detail {
 
+WeightMatrix read_weight_matrix(const toml::node& node, const std::string& path, const std::string& key, int rows,
+                                int cols) {
+  return read_matrix(node, path, key, rows, cols, nullptr);
+}
+
+toml::table parse_toml_text(const std::string& text, const std::string& path) {
+  try {
+    return toml::parse(text, path);
+  } catch (const toml::parse_error& e) {
+    throw InputError(path + ":" + std::to_string(e.source().begin.line) + ": not valid TOML: " +
+                     std::string(e.description()));
+  }
+}
+
 void require_symmetric(const Eigen::MatrixXd& x, const std::string& name, double t, double tol) {
   const double scale = std::max(1.0, x.cwiseAbs().maxCoeff());
   Eigen::Index i = 0, j = 0;
@@ -216,6 +294,9 @@ std::pair<double, double> eigen_range(const Eigen::MatrixXd& x) {
 }
 
 }  // namespace weight_detail
+
+using weight_detail::eigen_range;
+using weight_detail::require_symmetric;
 
 void check_weights(const Weights& w, int n, int m, const std::vector<double>& times, double t_final,
                    const WeightCheckOptions& options) {

@@ -62,6 +62,19 @@ Weights default_weights(int n, int m);
 /// "PATH: KEY...: what is wrong".
 Weights load_weights(const std::string& path, int n, int m);
 
+struct ExpressionSymbols;  // time_expression.hpp
+
+/// As above for the plant SYS (n states, m inputs: with --controls, the selection), which must
+/// outlive the weights: entries may also use the model's parameters (values in effect after
+/// --set), [define] names and table columns (model_symbols), and the key Qy (p x p, p outputs)
+/// weighs the outputs y = C x + D u: the cost y'Qy y adds C'Qy C to Q, D'Qy D to R and C'Qy D
+/// to N (after the file's own Q, R, N or their defaults; docs/periodic.md "Weights").
+Weights load_weights(const std::string& path, const System& sys);
+
+/// The names weights of SYS may use: its parameters as constants, its [define] names and table
+/// columns as varying symbols (a model read from a file; an InputSelection is seen through).
+ExpressionSymbols model_symbols(const System& sys);
+
 /// Tolerances of check_weights.
 struct WeightCheckOptions {
   /// Largest |W - W'| allowed, relative to max(1, largest |entry|); default 1e-10.

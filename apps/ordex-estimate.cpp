@@ -5,6 +5,7 @@
 
 #include "common/front_end.hpp"
 #include "estimation/estimate.hpp"
+#include "estimation/periodic_estimate.hpp"
 #include "io/errors.hpp"
 
 using namespace ordex;
@@ -13,7 +14,8 @@ namespace {
 const FlagNames kFlags = {{"EstimationOptions::samples", "--samples"},
                           {"EstimationOptions::dense_intervals", "--dense"},
                           {"EstimationOptions::noise", "--noise"},
-                          {"RiccatiOptions::solver", "--solver"}};
+                          {"RiccatiOptions::solver", "--solver"},
+                          {"PeriodicOptions::periodicity_tolerance", "--periodic-tol"}};
 }  // namespace
 
 int main(int argc, char** argv) {
@@ -21,6 +23,7 @@ int main(int argc, char** argv) {
     CommonOptions common;
     std::string noise, measurements, solver, sigma_csv;
     EstimationOptions o;
+    PeriodicOptions periodic;
     po::options_description desc("Options");
     add_common_options(desc, common, "equally spaced times of the gain schedule and sigma history, ends included");
     desc.add_options()
@@ -35,13 +38,19 @@ int main(int argc, char** argv) {
          "ode (the covariance equation with CVODE BDF) or hamiltonian (the engine, --method, on the "
          "linear-fractional form); the other route runs as a cross-check")
         ("no-cross-check", "skip the second route (no agreement in the summary)")
+        ("periodic", "the periodic steady-state filter (a model with a period): the stabilizing periodic solution "
+         "of the filter's Riccati equation over one period from --from (--to is not used; P0 of the noise file is "
+         "not used), its gain L(t) and the Floquet multipliers of A - L C. Exit 3 when none exists (the message "
+         "names the multiplier the outputs cannot see)")
+        ("periodic-tol", po::value(&periodic.periodicity_tolerance)->value_name("TOL")->default_value(1e-6, "1e-6"),
+         "with --periodic: largest relative gap between P(t0) and P after one period")
         ("dense", po::value(&o.dense_intervals)->value_name("N")->default_value(2000), "least number of intervals "
          "of the hamiltonian route's grid over the window")
         ("sigma-csv", po::value(&sigma_csv)->value_name("PATH"), "standard deviation of each state over time: "
          "t,sigma_<state>,... (in a covariance analysis two rows at each update time: before and after)");
     po::variables_map vm;
     if (!parse_command_line(argc, argv, desc, vm, "ordex-estimate",
-            "ordex-estimate --model PATH --noise PATH [--measurements PATH] [options]",
+            "ordex-estimate --model PATH --noise PATH [--measurements PATH | --periodic] [options]",
             "State estimation for x' = A(t)x + B(t)u + G w, y = C(t)x + v. Without --measurements: the Kalman-Bucy "
             "filter, P' = AP + PA' + G Qn G' - P C' Rn^-1 C P forward from P0, and its gain schedule L(t) = "
             "P C' Rn^-1 (--csv: t,L_1_1,...,L_n_p, states by outputs). With --measurements: a covariance analysis, "
@@ -53,8 +62,15 @@ int main(int argc, char** argv) {
             "numerical failure."))
       return 0;
     if (noise.empty()) throw InputError("--noise is required (the noise file: Qn, Rn, P0)");
+    const bool is_periodic = vm.count("periodic") > 0;
+    if (is_periodic && !measurements.empty())
+      throw InputError("--periodic and --measurements: the periodic steady state is the continuous filter's; "
+                       "give one of them");
     AppSetup setup = setup_from_common(common);
-    require_forward_window(setup);
+    if (is_periodic && !setup.system->info().period)
+      throw InputError(setup.system->info().source +
+                       ": --periodic needs a model with a period ([system] period); this one declares none");
+    if (!is_periodic) require_forward_window(setup);
     const System& sys = *setup.system;
     check_output_paths({common.json, common.csv, sigma_csv}, run_inputs(sys, {noise, measurements}));
     o.noise = load_noise(noise, sys);
@@ -64,7 +80,8 @@ int main(int argc, char** argv) {
     o.propagation = setup.propagation;
     o.samples = common.samples;
     SummaryOutput json(common.json);
-    const EstimationReport r = estimate(sys, setup.t0, setup.t1, o);
+    const EstimationReport r =
+        is_periodic ? estimate_periodic(sys, setup.t0, o, periodic) : estimate(sys, setup.t0, setup.t1, o);
     if (!common.csv.empty()) write_estimator_gain_csv(common.csv, r);
     if (!sigma_csv.empty()) write_sigma_csv(sigma_csv, r);
     Json summary = with_app("ordex-estimate", r.to_json());

@@ -11,6 +11,7 @@
 
 // Systems: the System interface, models written in C++ (FunctionSystem), model files.
 #include "model/function_system.hpp"
+#include "model/input_selection.hpp"
 #include "model/model_file.hpp"
 #include "model/system.hpp"
 
@@ -28,6 +29,8 @@
 #include "gramian/transfer.hpp"
 
 // Finite-horizon LQR: weights, Riccati solutions (the gain schedule), the regulator job.
+#include "riccati/periodic_filter.hpp"
+#include "riccati/periodic_regulator.hpp"
 #include "riccati/regulator.hpp"
 #include "riccati/riccati_solver.hpp"
 #include "riccati/weights.hpp"
@@ -35,6 +38,7 @@
 // Estimation: the Kalman-Bucy filter and covariance analysis on a sensor schedule.
 #include "estimation/estimate.hpp"
 #include "estimation/noise.hpp"
+#include "estimation/periodic_estimate.hpp"
 #include "estimation/sensor_schedule.hpp"
 
 // Forced response to input histories and discrete-time models.

@@ -197,7 +197,7 @@ EstimationReport estimate(const System& sys, double t0, double t1, const Estimat
 
 Json EstimationReport::to_json() const {
   Json j = header.to_json();
-  j["kind"] = estimation_kind_name(covariance_analysis);
+  j["kind"] = periodic.is_null() ? estimation_kind_name(covariance_analysis) : "periodic-kalman-bucy";
   j["solver"] = solver_name(solver);
   Json check = nullptr;
   const std::string other =
@@ -219,13 +219,14 @@ Json EstimationReport::to_json() const {
   for (const Eigen::MatrixXd& g : gains) L.push_back(ordex::to_json(g));
   j["gain_schedule"] = {{"times", vector_to_json(gain_times)}, {"L", L}};
   j["stats"] = {{"steps", steps}, {"evaluations", evaluations}, {"seconds", seconds}};
+  if (!periodic.is_null()) j["periodic"] = periodic;
   return j;
 }
 
 std::string EstimationReport::brief() const {
   std::ostringstream out;
   out << std::setprecision(8);
-  out << (covariance_analysis ? "covariance analysis" : "Kalman-Bucy filter") << " for "
+  out << (covariance_analysis ? "covariance analysis" : periodic.is_null() ? "Kalman-Bucy filter" : "periodic steady-state Kalman-Bucy filter") << " for "
       << (header.title.empty() ? header.source : header.title) << " over [" << t0 << ", " << t1 << "]\n";
   out << "noise: " << noise_source << " (process noise through " << noise_path << ")\n";
   if (covariance_analysis) out << "schedule: " << schedule_source << ", " << updates << " measurement updates\n";
@@ -241,6 +242,15 @@ std::string EstimationReport::brief() const {
     out << " " << states[static_cast<std::size_t>(i)] << "=" << sigma_final(i);
   out << "\n";
   out << "gain schedule: " << gains.size() << (covariance_analysis ? " updates" : " times") << "\n";
+  if (!periodic.is_null()) {
+    const Json& cl = periodic["closed_loop_floquet"];
+    const Json& ol = periodic["open_loop_floquet"];
+    out << "periodic: P after one period back returns within " << periodic["periodicity_gap"].get<double>()
+        << " (relative); Floquet multipliers of A: |mu| max " << ol["largest_modulus"].get<double>()
+        << "; of A - L C: |mu| max " << cl["largest_modulus"].get<double>()
+        << (cl["stable"].get<bool>() ? " (the error decays)" : " (NOT stable)") << "\n";
+    if (periodic.contains("note")) out << "note: " << periodic["note"].get<std::string>() << "\n";
+  }
   return out.str();
 }
 

@@ -86,6 +86,10 @@ struct EstimationReport {
   std::vector<Eigen::MatrixXd> P;
   std::vector<Eigen::VectorXd> sigma;
   std::size_t updates = 0;                ///< measurement updates applied
+  /// The periodic steady state (estimate_periodic, periodic_estimate.hpp): period, passes,
+  /// periodicity_gap, x1_rcond, closed_loop_floquet and open_loop_floquet (of A - L C and A),
+  /// note; null for the filter over a window and the covariance analysis.
+  Json periodic;
 
   /// The summary: the common header, kind, solver, cross_check = {solver, status (ok or failed),
   /// engine, agreement, reason} (null when not run),

@@ -53,20 +53,26 @@ std::pair<double, double> window_of(const Model& model, const py::object& t0, co
   return {a, b};
 }
 
-py::object linearize(std::shared_ptr<Model> model, const py::object& t0, const py::object& t1, int samples,
-                     double step) {
+py::object linearize(std::shared_ptr<Model> model, const py::object& times, const py::object& t0,
+                     const py::object& t1, int samples, double step) {
   ordex::LinearizeOptions o;
   o.samples = samples;
   o.step = step;
+  if (!times.is_none() && (!t0.is_none() || !t1.is_none()))
+    throw ordex::InputError("linearize: give times, or the window t0, t1, not both");
+  std::vector<double> grid;
+  if (!times.is_none()) grid = times_from(times, "linearize: times");
   const auto [a, b] = window_of(*model, t0, t1);
-  ordex::LinearizeReport r = released([&] { return ordex::linearize(*model, a, b, o); });
+  ordex::LinearizeReport r = released([&] {
+    return grid.empty() ? ordex::linearize(*model, a, b, o) : ordex::linearize(*model, grid);
+  });
   std::vector<Eigen::MatrixXd> x, u;
   for (const Eigen::VectorXd& v : r.x) x.push_back(v.transpose());
   for (const Eigen::VectorXd& v : r.u) u.push_back(v.transpose());
   const std::size_t k = r.times.size();
   py::dict f;
-  f["t0"] = a;
-  f["t1"] = b;
+  f["t0"] = r.times.front();
+  f["t1"] = r.times.back();
   f["states"] = r.state_names;
   f["inputs"] = r.input_names;
   f["outputs"] = r.output_names;
@@ -317,11 +323,12 @@ without [dynamics] is an InputError (load_model reads it).)doc")
             .c_str());
 
   const ordex::LinearizeOptions ld{};
-  m.def("linearize", &linearize, py::arg("model").none(false), py::arg("t0") = py::none(),
-        py::arg("t1") = py::none(), py::arg("samples") = ld.samples, py::arg("step") = ld.step, R"doc(
-The linearization of a NonlinearModel about its nominal on a grid of [t0, t1] (default the
-model's window): samples equally spaced times (default 101), or t0, t0 + step, ..., t1 with
-step > 0. A(t) = df/dx, B = df/du, C = dh/dx, D = dh/du at (x_n(t), u_n(t), t), exact
+  m.def("linearize", &linearize, py::arg("model").none(false), py::arg("times") = py::none(),
+        py::arg("t0") = py::none(), py::arg("t1") = py::none(), py::arg("samples") = ld.samples,
+        py::arg("step") = ld.step, R"doc(
+The linearization of a NonlinearModel about its nominal at TIMES (strictly increasing, inside
+the nominal's span) or, without times, on a grid of [t0, t1] (default the model's window):
+samples equally spaced times (default 101), or t0, t0 + step, ..., t1 with step > 0. A(t) = df/dx, B = df/du, C = dh/dx, D = dh/du at (x_n(t), u_n(t), t), exact
 (symbolic) Jacobians.
 Returns a LinearizationResult: times (T,), the nominal x (T, n) and u (T, m), A (T, n, n),
 B (T, n, m), C (T, p, n), D (T, p, m).

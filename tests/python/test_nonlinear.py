@@ -111,6 +111,11 @@ class Models(unittest.TestCase):
         np.testing.assert_allclose(r.C[:, 0, 0], L * np.sin(xn[:, 0]), atol=1e-7)  # dh/dtheta
         np.testing.assert_allclose(r.u, 0.0)
         self.assertIn("times", r.to_dict())
+        # At times of one's own (uneven), the same Jacobian.
+        t = np.array([0.05, 0.4, 1.7, 2.9])
+        at = ordex.linearize(model, t)
+        np.testing.assert_array_equal(at.times, t)
+        np.testing.assert_allclose(at.A[:, 1, 0], -G / L * np.cos(self.pendulum_nominal(t)[:, 0]), atol=1e-7)
 
     def test_load_model_of_a_nonlinear_file_is_its_linearization(self):
         sys = ordex.load_model(self.pendulum)
@@ -171,6 +176,8 @@ class Models(unittest.TestCase):
             ordex.simulate(model, dispersions={"initial_state": {"no_such_state": {"sigma": 1.0}}})
         with self.assertRaises(ordex.InputError):
             ordex.linearize(model, t0=0.0, t1=10.0)  # beyond the nominal's span
+        with self.assertRaisesRegex(ordex.InputError, "strictly increasing"):
+            ordex.linearize(model, [1.0, 0.5])
         # x' = x^2 from x(0) = 1 is 1/(1 - t): the nominal cannot be carried past t = 1.
         with self.assertRaises(ordex.NumericalError):
             ordex.load_nonlinear(self.write("blowup.toml", BLOWUP))

@@ -120,6 +120,26 @@ std::shared_ptr<const ordex::GainSchedule> gains_from(const py::object& given, c
   return s;
 }
 
+/// The disturbance: a CSV path (t and columns named after inputs) or (times, w) with w of shape
+/// (len(times), m) (1-D when m is 1), linear between samples and held outside.
+std::shared_ptr<const ordex::SampledInput> disturbance_from(const py::object& given, const Model& model) {
+  if (py::isinstance<py::str>(given))
+    return std::make_shared<const ordex::SampledInput>(ordex::read_disturbance(given.cast<std::string>(), model.info()));
+  if (!py::isinstance<py::tuple>(given) || py::len(given) != 2)
+    throw ordex::InputError("SimulateOptions::disturbance: give a CSV path or (times, w)");
+  auto d = std::make_shared<ordex::SampledInput>();
+  d->times = times_from(given[py::int_(0)], "SimulateOptions::disturbance: times");
+  const long m = static_cast<long>(model.info().input_names.size());
+  py::array w = py::array::ensure(given[py::int_(1)]);
+  if (w && w.ndim() == 1 && m == 1) {
+    d->values = to_vector(w, "SimulateOptions::disturbance: w");
+  } else {
+    d->values = to_matrix(given[py::int_(1)], "SimulateOptions::disturbance: w");
+  }
+  d->validate(static_cast<int>(m));
+  return d;
+}
+
 /// Index of NAME in NAMES; InputError naming WHERE otherwise.
 int index_of(const std::string& name, const std::vector<std::string>& names, const std::string& where) {
   for (std::size_t i = 0; i < names.size(); ++i)
@@ -170,7 +190,8 @@ py::array_t<double> rows(const std::vector<Eigen::VectorXd>& v, long len) {
 
 py::object simulate(std::shared_ptr<Model> model, const py::object& dx0, const py::object& gains, int runs,
                     std::uint64_t seed, const py::object& dispersions, const py::object& t0, const py::object& t1,
-                    int samples, const py::object& u_min, const py::object& u_max, int threads, bool histories,
+                    int samples, const py::object& u_min, const py::object& u_max, const py::object& disturbance,
+                    int threads, bool histories,
                     const std::string& method, double rtol, double atol, double max_step, long max_steps) {
   const long n = static_cast<long>(model->info().state_names.size()), m = static_cast<long>(model->info().input_names.size());
   ordex::SimulateOptions o;
@@ -182,6 +203,7 @@ py::object simulate(std::shared_ptr<Model> model, const py::object& dx0, const p
   if (!u_min.is_none()) o.u_min = to_vector(u_min, "SimulateOptions::u_min", m);
   if (!u_max.is_none()) o.u_max = to_vector(u_max, "SimulateOptions::u_max", m);
   if (!dispersions.is_none()) o.dispersions = dispersions_from(dispersions, *model);
+  if (!disturbance.is_none()) o.disturbance = disturbance_from(disturbance, *model);
   o.runs = runs;
   o.seed = seed;
   o.threads = threads;
@@ -339,10 +361,12 @@ B (T, n, m), C (T, p, n), D (T, p, m).
         py::arg("gains") = py::none(), py::arg("runs") = sd.runs, py::arg("seed") = sd.seed,
         py::arg("dispersions") = py::none(), py::arg("t0") = py::none(), py::arg("t1") = py::none(),
         py::arg("samples") = sd.samples, py::arg("u_min") = py::none(), py::arg("u_max") = py::none(),
-        py::arg("threads") = sd.threads, py::arg("histories") = sd.keep_histories, ORDEX_ENGINE_ARGS, doc(R"doc(
+        py::arg("disturbance") = py::none(), py::arg("threads") = sd.threads, py::arg("histories") = sd.keep_histories, ORDEX_ENGINE_ARGS, doc(R"doc(
 Flies the nonlinear plant from x_n(t0) + dx0 over [t0, t1] (default the model's window), open
 loop (u = u_n) or, with gains, closed loop u = u_n(t) - K(t) (x - x_n(t)), optionally
-saturated to [u_min, u_max]; each run is compared with the linear prediction Phi_cl(t1, t0) dx0.
+saturated to [u_min, u_max], plus a disturbance w(t) added after the limits (a CSV path with t
+and columns named after inputs, or (times, w) with w of shape (len(times), m), linear between
+samples, held outside); each run is compared with the linear prediction Phi_cl(t1, t0) dx0.
 dx0: initial deviation (default zero). gains: the path of a gain CSV (ordex-regulate's
 --csv), an ordex.regulate result, or (times, K) with K of shape (len(times), m, n), linear
 between samples and held outside. runs (default 1), seed (default 1) and dispersions (a

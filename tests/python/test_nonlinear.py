@@ -159,6 +159,10 @@ class Models(unittest.TestCase):
         np.testing.assert_allclose(r.dx_final[0], [dx0 * np.exp((a - k) * 2)], rtol=1e-6)
         self.assertTrue(r.closed_loop)
         self.assertIn("Caution", r.brief)
+        # Open loop with a constant disturbance c: dx' = a dx + c from 0, dx(2) = c (e^(2a) - 1) / a.
+        c = 0.4
+        w = ordex.simulate(model, disturbance=(np.array([0.0, 2.0]), np.array([c, c])))
+        np.testing.assert_allclose(w.dx_final[0], [c * (np.exp(2 * a) - 1) / a], rtol=1e-6)
         with self.assertRaisesRegex(ordex.InputError, "gains"):
             ordex.simulate(model, gains=(times, np.ones((5, 2, 1))))
 

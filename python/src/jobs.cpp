@@ -556,14 +556,7 @@ ordex::SensorSchedule schedule_from(const py::object& given, const ordex::System
     if (d.contains("times")) {
       s.times = times_from(d["times"], name + "['times']");
     } else {
-      const double every = d["every"].cast<double>();
-      if (!(every > 0) || !std::isfinite(every)) throw ordex::InputError(name + "['every']: must be positive");
-      if ((t1 - t0) / every > 1e7) throw ordex::InputError(name + "['every']: more than 10^7 measurements");
-      for (long i = 0;; ++i) {
-        const double t = t0 + static_cast<double>(i) * every;
-        if (t > t1 + 1e-12 * std::max(1.0, std::abs(t1))) break;
-        s.times.push_back(std::min(t, t1));
-      }
+      s.times = ordex::every_times(d["every"].cast<double>(), t0, t1, name + "['every']");
     }
     schedule.sensors.push_back(std::move(s));
   }

@@ -44,6 +44,16 @@ std::vector<int> sensor_output_indices(const Sensor& sensor, const System& sys) 
   return idx;
 }
 
+std::vector<double> every_times(double every, double t0, double t1, const std::string& what) {
+  if (!(every > 0) || !std::isfinite(every)) throw InputError(what + ": " + format_number(every) + " must be positive");
+  const double count = std::floor((t1 - t0) / every * (1 + 1e-12));
+  if (!(count < kMaxUpdatesPerSensor))
+    throw InputError(what + ": " + format_number(every) + " makes more than 10^7 updates over " + window_text(t0, t1));
+  std::vector<double> times;
+  for (long k = 0; k <= static_cast<long>(count); ++k) times.push_back(std::min(t1, t0 + k * every));
+  return times;
+}
+
 SensorSchedule load_sensor_schedule(const std::string& path, const System& sys, double t0, double t1) {
   const std::string text = read_text_file(path, "sensor schedule", input_limits().max_toml_bytes);
   const toml::table table = parse_toml_text(text, path);
@@ -90,13 +100,7 @@ SensorSchedule load_sensor_schedule(const std::string& path, const System& sys, 
           throw InputError(name + ".times[" + std::to_string(i + 1) + "]: " + format_number(sensor.times[i]) +
                            " comes before the time listed ahead of it (times must be ascending)");
     } else {
-      const double every = time_value(*m->get("every"), name + ".every");
-      if (!(every > 0)) throw InputError(name + ".every: " + format_number(every) + " must be positive");
-      const double count = std::floor((t1 - t0) / every * (1 + 1e-12));
-      if (!(count < kMaxUpdatesPerSensor))
-        throw InputError(name + ".every: " + format_number(every) + " makes more than 10^7 updates over " +
-                         window_text(t0, t1));
-      for (long k = 0; k <= static_cast<long>(count); ++k) sensor.times.push_back(std::min(t1, t0 + k * every));
+      sensor.times = every_times(time_value(*m->get("every"), name + ".every"), t0, t1, name + ".every");
     }
     const toml::node* rn = m->get("Rn");
     if (!rn) throw InputError(name + ".Rn: missing (the noise covariance of the outputs measured)");

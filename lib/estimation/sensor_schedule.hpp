@@ -28,6 +28,11 @@ struct SensorSchedule {
 /// "PATH: measurement[i].KEY: what is wrong" (an unknown output, a time outside [T0, T1]).
 SensorSchedule load_sensor_schedule(const std::string& path, const System& sys, double t0, double t1);
 
+/// The times of a sensor that reads every EVERY: t0, t0 + every, ... up to T1 (the last multiple
+/// inside the window, within a relative 1e-12). InputError naming WHAT for a spacing that is not
+/// positive or makes more than 10^7 readings.
+std::vector<double> every_times(double every, double t0, double t1, const std::string& what);
+
 /// One measurement update: at T, sensor SENSOR of the schedule.
 struct ScheduledUpdate {
   double t = 0;

@@ -17,6 +17,23 @@ void LinearizeOptions::validate() const {
 
 LinearizeReport linearize(const NonlinearModel& model, double t0, double t1, const LinearizeOptions& o) {
   o.validate();
+  std::vector<double> times;
+  if (o.step > 0) {
+    if ((t1 - t0) / o.step > 1e7) throw InputError("LinearizeOptions::step: more than 10000000 samples");
+    for (double t = t0; t < t1 - 1e-12 * (t1 - t0); t += o.step) times.push_back(t);
+    times.push_back(t1);
+  } else {
+    times = linspace(t0, t1, o.samples);
+  }
+  return linearize(model, times);
+}
+
+LinearizeReport linearize(const NonlinearModel& model, const std::vector<double>& times) {
+  if (times.empty()) throw InputError("linearize: times: at least one time is needed");
+  for (std::size_t k = 0; k < times.size(); ++k)
+    if (!std::isfinite(times[k]) || (k > 0 && !(times[k] > times[k - 1])))
+      throw InputError("linearize: times must be finite and strictly increasing (at index " + std::to_string(k) + ")");
+  const double t0 = times.front(), t1 = times.back();
   std::unique_ptr<System> lin = model.linearization();
   lin->require_defined_on(t0, t1, "the window");
   LinearizeReport r;
@@ -24,13 +41,7 @@ LinearizeReport linearize(const NonlinearModel& model, double t0, double t1, con
   r.state_names = lin->info().state_names;
   r.input_names = lin->info().input_names;
   r.output_names = lin->info().output_names;
-  if (o.step > 0) {
-    if ((t1 - t0) / o.step > 1e7) throw InputError("LinearizeOptions::step: more than 10000000 samples");
-    for (double t = t0; t < t1 - 1e-12 * (t1 - t0); t += o.step) r.times.push_back(t);
-    r.times.push_back(t1);
-  } else {
-    r.times = linspace(t0, t1, o.samples);
-  }
+  r.times = times;
   auto& sys = static_cast<const LinearizedSystem&>(*lin);
   const int n = lin->states(), m = lin->inputs();
   for (double t : r.times) {

@@ -36,6 +36,9 @@ struct LinearizeReport {
 
 /// The linearization of MODEL on the grid of O over [T0, T1] (inside the nominal's span).
 LinearizeReport linearize(const NonlinearModel& model, double t0, double t1, const LinearizeOptions& o);
+/// The linearization of MODEL at TIMES (strictly increasing, at least one, inside the nominal's
+/// span); the header's window is [TIMES.front(), TIMES.back()]. InputError otherwise.
+LinearizeReport linearize(const NonlinearModel& model, const std::vector<double>& times);
 
 /// Writes the CSV at CSV_PATH (atomic).
 void write_linearization_csv(const std::string& csv_path, const LinearizeReport& r);

@@ -127,3 +127,44 @@ class DiscreteModelResult(Result):
             if self.gamma1 is not None:
                 x[k + 1] += self.gamma1[k] @ u[k + 1]
         return x
+
+
+class EstimationResult(Result):
+    """ordex.estimate: kind ("kalman-bucy" or "covariance-analysis"), P0, P_final, sigma_final,
+    L0 (the first gain, None when none), gain_times and L (k x n x p: the filter gain
+    P C' Rn^-1 at each sample time, or the update gain of each scheduled update),
+    history_times with P (T x n x n) and sigma (T x n) (two rows at each update time: before
+    and after), updates, solver, engine, steps, agreement (the cross-check, None when not run),
+    check_failure, and caution (gains can drive hardware)."""
+
+    def __init__(self, fields, json_text, brief):
+        super().__init__(fields, json_text, brief)
+        self.caution = CAUTION
+        self._brief = self._brief.rstrip("\n") + "\n" + CAUTION + "\n"
+
+    def to_dict(self):
+        d = super().to_dict()
+        d["caution"] = CAUTION
+        return d
+
+
+class LinearizationResult(Result):
+    """ordex.linearize: times (T,), x (T x n) and u (T x m), the nominal; A (T x n x n),
+    B (T x n x m), C (T x p x n), D (T x p x m), the Jacobians at each time; states, inputs,
+    outputs."""
+
+
+class SimulationResult(Result):
+    """ordex.simulate: closed_loop, runs (the number of runs), completed, failed; per run
+    (leading axis over the runs) ok, failure, dx0, x_final, dx_final, peak_deviation,
+    peak_deviation_time, peak_input, cost, linear_gap; with histories=True times (T,),
+    x (runs x T x n) and u (runs x T x m); nominal_final, linear_transition (Phi_cl(t1, t0) of
+    the linearization); statistics (Record: dx_final_mean, dx_final_std, peak_deviation_mean,
+    peak_deviation_max, peak_input_max, cost_mean, linear_gap_mean, linear_gap_max). With
+    gains, caution holds the hardware caution (None otherwise)."""
+
+    def __init__(self, fields, json_text, brief):
+        super().__init__(fields, json_text, brief)
+        self.caution = CAUTION if self.closed_loop else None
+        if self.caution:
+            self._brief = self._brief.rstrip("\n") + "\n" + CAUTION + "\n"

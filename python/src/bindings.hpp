@@ -91,7 +91,27 @@ py::object make_result(const char* cls, py::dict fields, const ordex::Json& json
 /// A Record (attribute bag) of ordex.results from FIELDS.
 py::object make_record(const char* cls, py::dict fields);
 
+/// The engine options every job takes (PropagationOptions, with interrupt_check as progress).
+ordex::PropagationOptions engine(const std::string& method, double rtol, double atol, double max_step,
+                                 long max_steps);
+/// TEXT followed by the description of the engine options (a job's docstring).
+std::string doc(const char* text);
+/// The library's engine defaults, for the keyword arguments below.
+inline const ordex::PropagationOptions kEngine{};
+
+/// pybind11 argument list of the engine options, with the library's defaults.
+#define ORDEX_ENGINE_ARGS                                                                          \
+  py::arg("method") = ordex::method_name(kEngine.method), py::arg("rtol") = kEngine.rtol,          \
+  py::arg("atol") = kEngine.atol, py::arg("max_step") = kEngine.max_step,                          \
+  py::arg("max_steps") = kEngine.max_steps
+
+/// Parameter overrides from a dict {name: number or constant expression} (None: none).
+ordex::ParameterOverrides overrides_from(const py::object& set);
+/// A sequence of times as a vector; InputError naming WHAT otherwise.
+std::vector<double> times_from(const py::object& times, const std::string& what);
+
 void bind_systems(py::module_& m);
 void bind_jobs(py::module_& m);
+void bind_nonlinear(py::module_& m);
 
 }  // namespace ordex_python

@@ -15,9 +15,8 @@ namespace {
 
 using RowMajor = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
 
-const ordex::PropagationOptions kEngine{};
+}  // namespace
 
-/// The engine options every job takes.
 ordex::PropagationOptions engine(const std::string& method, double rtol, double atol, double max_step,
                                  long max_steps) {
   ordex::PropagationOptions o;
@@ -30,18 +29,19 @@ ordex::PropagationOptions engine(const std::string& method, double rtol, double 
   return o;
 }
 
-/// pybind11 argument list of the engine options, with the library's defaults.
-#define ORDEX_ENGINE_ARGS                                                                          \
-  py::arg("method") = ordex::method_name(kEngine.method), py::arg("rtol") = kEngine.rtol,          \
-  py::arg("atol") = kEngine.atol, py::arg("max_step") = kEngine.max_step,                          \
-  py::arg("max_steps") = kEngine.max_steps
-
 const char* const kEngineDoc = R"doc(
 Engine options (PropagationOptions): method "auto" (default), "magnus4", "magnus6", "adams" or
 "bdf"; rtol (default 1e-8, in [1e-14, 0.1]) and atol (default 1e-10, > 0) of each step; max_step
 (0: no limit); max_steps (default 10^7).)doc";
 
 std::string doc(const char* text) { return std::string(text) + kEngineDoc; }
+
+std::vector<double> times_from(const py::object& times, const std::string& what) {
+  Eigen::VectorXd t = to_vector(times, what);
+  return std::vector<double>(t.data(), t.data() + t.size());
+}
+
+namespace {
 
 py::dict stats_fields(const ordex::PropagationStats& s) {
   py::dict d;
@@ -264,7 +264,7 @@ py::object gramian(std::shared_ptr<ordex::System> sys, double t0, double t1, con
 // ---- regulate ---------------------------------------------------------------------------------
 
 /// A weight from Python: a 2-D array, a 1-D array (the diagonal) or a number (times identity).
-ordex::WeightMatrix weight(const py::handle& h, int rows, int cols, const std::string& name) {
+Eigen::MatrixXd weight_value(const py::handle& h, int rows, int cols, const std::string& name) {
   Eigen::MatrixXd w;
   py::array a = py::array::ensure(h);
   if (!a) {
@@ -278,7 +278,11 @@ ordex::WeightMatrix weight(const py::handle& h, int rows, int cols, const std::s
     throw ordex::InputError(name + ": shape (" + std::to_string(w.rows()) + ", " + std::to_string(w.cols()) +
                             ") where (" + std::to_string(rows) + ", " + std::to_string(cols) + ") is expected");
   if (!w.allFinite()) throw ordex::InputError(name + ": an entry is not finite");
-  return ordex::WeightMatrix::constant(w, name);
+  return w;
+}
+
+ordex::WeightMatrix weight(const py::handle& h, int rows, int cols, const std::string& name) {
+  return ordex::WeightMatrix::constant(weight_value(h, rows, cols, name), name);
 }
 
 ordex::Weights weights_from(const py::object& given, const ordex::System& sys) {
@@ -349,10 +353,6 @@ py::object regulate(std::shared_ptr<ordex::System> sys, double t0, double t1, co
 
 // ---- respond, discretize ----------------------------------------------------------------------
 
-std::vector<double> times_from(const py::object& times, const std::string& what) {
-  Eigen::VectorXd t = to_vector(times, what);
-  return std::vector<double>(t.data(), t.data() + t.size());
-}
 
 py::object respond(std::shared_ptr<ordex::System> sys, const py::object& times, const py::object& inputs,
                    const py::object& x0, const std::string& hold, const std::string& path, int samples,
@@ -494,6 +494,115 @@ py::object discretize(std::shared_ptr<ordex::System> sys, const py::object& time
   return make_result("DiscreteModelResult", f, r.to_json(), r.brief());
 }
 
+// ---- estimate ---------------------------------------------------------------------------------
+
+/// The noise: a noise file's path, or a dict with "Qn" and "P0" (required), "Rn", and "through"
+/// (input names) or "G" (n x q); matrices as weights are given (2-D, 1-D diagonal, number).
+ordex::NoiseModel noise_from(const py::object& given, const ordex::System& sys) {
+  if (py::isinstance<py::str>(given)) return ordex::load_noise(given.cast<std::string>(), sys);
+  if (!py::isinstance<py::dict>(given))
+    throw ordex::InputError("EstimationOptions::noise: give the path of a noise file or a dict (Qn, Rn, P0)");
+  const py::dict d = given.cast<py::dict>();
+  for (auto item : d) {
+    const std::string key = py::str(item.first);
+    if (key != "Qn" && key != "Rn" && key != "P0" && key != "G" && key != "through")
+      throw ordex::InputError("noise: unknown key '" + key + "' (choose Qn, Rn, P0, G, through)");
+  }
+  if (!d.contains("Qn")) throw ordex::InputError("noise['Qn']: required (the process noise intensity)");
+  if (!d.contains("P0")) throw ordex::InputError("noise['P0']: required (the initial covariance)");
+  if (d.contains("G") && d.contains("through")) throw ordex::InputError("noise: give G or through, not both");
+  const int n = sys.states(), p = sys.outputs();
+  ordex::NoiseModel noise;
+  int q = n;
+  if (d.contains("through")) {
+    noise.through = d["through"].cast<std::vector<std::string>>();
+    q = static_cast<int>(noise.through.size());
+  } else if (d.contains("G")) {
+    Eigen::MatrixXd g = to_matrix(d["G"], "noise['G']");
+    if (g.rows() != n) throw ordex::InputError("noise['G']: " + std::to_string(g.rows()) + " rows for " +
+                                               std::to_string(n) + " states");
+    q = static_cast<int>(g.cols());
+    noise.G = ordex::WeightMatrix::constant(g, "noise['G']");
+  }
+  noise.Qn = weight(d["Qn"], q, q, "noise['Qn']");
+  if (d.contains("Rn")) noise.Rn = weight(d["Rn"], p, p, "noise['Rn']");
+  noise.P0 = weight_value(d["P0"], n, n, "noise['P0']");
+  return noise;
+}
+
+/// The sensor schedule: a schedule file's path, or a list of dicts {"outputs": names, "times":
+/// list or "every": spacing (t0, t0 + every, ... up to t1), "Rn": covariance}.
+ordex::SensorSchedule schedule_from(const py::object& given, const ordex::System& sys, double t0, double t1) {
+  if (py::isinstance<py::str>(given)) return ordex::load_sensor_schedule(given.cast<std::string>(), sys, t0, t1);
+  if (!py::isinstance<py::list>(given) && !py::isinstance<py::tuple>(given))
+    throw ordex::InputError("EstimationOptions::schedule: give the path of a schedule file or a list of dicts");
+  ordex::SensorSchedule schedule;
+  for (const py::handle item : given) {
+    const std::string name = "measurements[" + std::to_string(schedule.sensors.size()) + "]";
+    if (!py::isinstance<py::dict>(item)) throw ordex::InputError(name + ": a dict (outputs, times or every, Rn)");
+    const py::dict d = item.cast<py::dict>();
+    for (auto kv : d) {
+      const std::string key = py::str(kv.first);
+      if (key != "outputs" && key != "times" && key != "every" && key != "Rn")
+        throw ordex::InputError(name + ": unknown key '" + key + "' (choose outputs, times, every, Rn)");
+    }
+    if (!d.contains("outputs") || !d.contains("Rn")) throw ordex::InputError(name + ": outputs and Rn are required");
+    if (d.contains("times") == d.contains("every")) throw ordex::InputError(name + ": give times or every");
+    ordex::Sensor s;
+    s.name = name;
+    s.outputs = d["outputs"].cast<std::vector<std::string>>();
+    const int k = static_cast<int>(s.outputs.size());
+    s.Rn = weight(d["Rn"], k, k, name + "['Rn']");
+    if (d.contains("times")) {
+      s.times = times_from(d["times"], name + "['times']");
+    } else {
+      s.times = ordex::every_times(d["every"].cast<double>(), t0, t1, name + "['every']");
+    }
+    schedule.sensors.push_back(std::move(s));
+  }
+  return schedule;
+}
+
+py::object estimate(std::shared_ptr<ordex::System> sys, double t0, double t1, const py::object& noise,
+                    const py::object& measurements, const std::string& solver, bool cross_check,
+                    int dense_intervals, int samples, const std::string& method, double rtol, double atol,
+                    double max_step, long max_steps) {
+  ordex::EstimationOptions o;
+  o.noise = noise_from(noise, *sys);
+  if (!measurements.is_none()) o.schedule = schedule_from(measurements, *sys, t0, t1);
+  o.solver = ordex::parse_solver(solver);
+  o.cross_check = cross_check;
+  o.propagation = engine(method, rtol, atol, max_step, max_steps);
+  o.dense_intervals = dense_intervals;
+  o.samples = samples;
+  ordex::EstimationReport r = compute(*sys, [&] { return ordex::estimate(*sys, t0, t1, o); });
+  py::dict f;
+  f["kind"] = ordex::estimation_kind_name(r.covariance_analysis);
+  f["t0"] = r.t0;
+  f["t1"] = r.t1;
+  f["states"] = r.states;
+  f["outputs"] = r.outputs;
+  f["P0"] = py::cast(r.P0);
+  f["P_final"] = py::cast(r.P_final);
+  f["sigma_final"] = py::cast(r.sigma_final);
+  f["L0"] = r.gains.empty() ? py::none() : py::cast(r.gains.front());
+  f["gain_times"] = to_array(r.gain_times);
+  f["L"] = stack(r.gains);
+  f["history_times"] = to_array(r.history_times);
+  f["P"] = stack(r.P);
+  std::vector<Eigen::MatrixXd> sigma;
+  for (const Eigen::VectorXd& s : r.sigma) sigma.push_back(s.transpose());
+  f["sigma"] = stack(sigma).attr("reshape")(r.sigma.size(), r.states.size());
+  f["updates"] = r.updates;
+  f["solver"] = ordex::solver_name(r.solver);
+  f["engine"] = r.engine;
+  f["steps"] = r.steps;
+  f["agreement"] = r.agreement ? py::cast(*r.agreement) : py::none();
+  f["check_failure"] = r.check_failure;
+  f["method"] = r.header.method;
+  return make_result("EstimationResult", f, r.to_json(), r.brief());
+}
+
 }  // namespace
 
 void bind_jobs(py::module_& m) {
@@ -603,6 +712,31 @@ hold: "zoh" (default; result.gamma, K x n x m) or "linear" (x_{k+1} = Phi_k x_k 
 reuses the step of equal-length intervals (default True). Returns a DiscreteModelResult: times,
 phi (K x n x n), gamma / gamma0, gamma1.)doc")
                                                                                   .c_str());
+  const ordex::EstimationOptions ed{};
+  m.def("estimate", &estimate, py::arg("system").none(false), py::arg("t0"), py::arg("t1"), py::arg("noise"),
+        py::arg("measurements") = py::none(), py::arg("solver") = ordex::solver_name(ed.solver),
+        py::arg("cross_check") = ed.cross_check, py::arg("dense_intervals") = ed.dense_intervals,
+        py::arg("samples") = ed.samples, ORDEX_ENGINE_ARGS, doc(R"doc(
+State estimation over [t0, t1] (t1 > t0) for x' = A x + B u + G w, y = C x + v.
+
+Without measurements: the Kalman-Bucy filter, P' = A P + P A' + G Qn G' - P C' Rn^-1 C P from
+P0, and its gain schedule L(t) = P C' Rn^-1. With measurements: a covariance analysis, P
+propagated with process noise alone between the scheduled measurements and updated in Joseph
+form at them (L then holds the update gains, one per update, zero in the columns of outputs
+not measured).
+noise: the path of a noise file (TOML, docs/estimation.md) or a dict with "Qn" and "P0"
+(required), "Rn" (needed by the filter), and "through" (input names: G = those columns of B)
+or "G" (n x q; default the identity); each matrix a 2-D array, a 1-D array meaning the
+diagonal, or a number meaning that multiple of the identity.
+measurements: the path of a schedule file or a list of dicts {"outputs": [names], "times":
+[...] or "every": spacing, "Rn": covariance}.
+solver: "ode" (default) or "hamiltonian", the route that gives the results; cross_check
+(default True) runs the other route too and reports the agreement. dense_intervals: the
+Hamiltonian route's grid (default 2000). samples: times of the gain schedule and history
+(default 101).
+Returns an EstimationResult: P_final, sigma_final, L0, gain_times and L (k, n, p),
+history_times with P (T, n, n) and sigma (T, n), agreement, updates, and caution.)doc")
+                                          .c_str());
   (void)sd;
 }
 

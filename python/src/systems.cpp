@@ -41,6 +41,19 @@ DoubleArray as_doubles(const py::handle& h, const std::string& what) {
 
 }  // namespace
 
+ordex::ParameterOverrides overrides_from(const py::object& set) {
+  ordex::ParameterOverrides overrides;
+  if (set.is_none()) return overrides;
+  for (auto item : set.cast<py::dict>()) {
+    const std::string name = py::str(item.first);
+    if (py::isinstance<py::str>(item.second))
+      overrides[name] = ordex::evaluate_constant(item.second.cast<std::string>(), "set[" + name + "]");
+    else
+      overrides[name] = item.second.cast<double>();
+  }
+  return overrides;
+}
+
 py::array_t<double> to_array(const std::vector<double>& v) {
   return py::array_t<double>(static_cast<py::ssize_t>(v.size()), v.data());
 }
@@ -424,20 +437,14 @@ std::shared_ptr<ordex::System> from_samples(const py::object& states, const py::
 }
 
 std::shared_ptr<ordex::System> load(const std::string& path, const py::object& set) {
-  ordex::ParameterOverrides overrides;
-  if (!set.is_none()) {
-    for (auto item : set.cast<py::dict>()) {
-      const std::string name = py::str(item.first);
-      if (py::isinstance<py::str>(item.second))
-        overrides[name] = ordex::evaluate_constant(item.second.cast<std::string>(), "set[" + name + "]");
-      else
-        overrides[name] = item.second.cast<double>();
-    }
-  }
+  const ordex::ParameterOverrides overrides = overrides_from(set);
   std::unique_ptr<ordex::System> sys;
   {
     py::gil_scoped_release release;
-    sys = ordex::load_model(path, overrides);
+    // A nonlinear model file (with [dynamics]) gives its linearization about the nominal,
+    // integrated with the engine's default tolerances, as the apps do.
+    sys = ordex::is_nonlinear_model_file(path) ? ordex::load_linearized_model(path, overrides)
+                                               : ordex::load_model(path, overrides);
   }
   return share(std::move(sys));
 }
@@ -564,7 +571,9 @@ The arrays are copied; computations on this system run without the GIL.
 )doc");
 
   m.def("load_model", &load, py::arg("path"), py::arg("set") = py::none(), R"doc(
-Loads a model file (TOML, docs/models.md) as a System.
+Loads a model file (TOML, docs/models.md) as a System. A nonlinear model file (one with
+[dynamics], docs/nonlinear.md) gives its linearization about the nominal (exact Jacobians; the
+nominal integrated with the engine's default tolerances): ordex.load_nonlinear keeps the plant.
 
 set: a dict {parameter: value} overriding the file's [parameters] (a value is a number or an
 expression of numbers and pi, e.g. "2*pi"); a name the model does not declare is an InputError.
@@ -599,4 +608,5 @@ PYBIND11_MODULE(_ordex, m) {
   });
   ordex_python::bind_systems(m);
   ordex_python::bind_jobs(m);
+  ordex_python::bind_nonlinear(m);
 }

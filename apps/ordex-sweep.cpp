@@ -103,7 +103,7 @@ bool build_sweep(int argc, char** argv, Sweep& s) {
   SimulateFlags simulate_flags;
   po::options_description desc("Options");
   add_common_options(desc, s.common, "equally spaced times in the window, both ends included (gramian: the grid "
-                                     "of the block route; regulate: the gain schedule's grid)",
+                                     "of the block route; regulate: the gain schedule's grid; simulate: each run's output times)",
                      "write the table: one row per point, the parameters, the key figures, then error");
   s.threads = static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
   desc.add_options()

@@ -1,10 +1,11 @@
 // ordex-sweep --job simulate: a batch of nonlinear runs at every point of a parameter grid, the
 // nominal integrated again with each point's values. Checked against the closed form of
 // x' = -k x^2 (separation of variables: x(t) = x0 / (1 + k x0 t)); identical tables on 1 and 2
-// threads with dispersed runs; failing points recorded; a parameter of nominal.x0 refused.
+// threads (and MPI ranks) with dispersed runs; failing points recorded; a parameter of nominal.x0 refused.
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <iostream>
 #include <map>
 #include <sstream>
 #include <vector>
@@ -101,7 +102,7 @@ TEST(SweepSimulate, FinalStatesMatchTheClosedFormAtEveryPoint) {
 }
 
 // Dispersed runs at each point are seeded from (--seed, point index): the table does not depend
-// on the threads, and another seed gives other numbers.
+// on the threads or ranks, and another seed gives other numbers.
 TEST(SweepSimulate, DispersedTableIsTheSameOnOneAndTwoThreads) {
   const std::string model = write_model("sweep_decay_mc.toml", kDecay);
   const std::string disperse = temp_dir() + "/sweep_decay_disperse.toml";
@@ -118,6 +119,18 @@ TEST(SweepSimulate, DispersedTableIsTheSameOnOneAndTwoThreads) {
   }
   EXPECT_EQ(tables[0], tables[1]);
   EXPECT_NE(tables[0], tables[2]);
+#ifdef ORDEX_MPIEXEC
+  // And on 2 ranks (rank 0 hands out points; the workers compute them).
+  const std::string csv = temp_dir() + "/sweep_decay_mc_ranks.csv";
+  const RunResult r = run(std::string("OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1 ") + ORDEX_MPIEXEC +
+                          " --oversubscribe -np 2 " + ORDEX_BIN_DIR + "/ordex-sweep" + args + csv + " --seed 7");
+  if (r.exit_code != 0 && r.err.find("ordex-sweep") == std::string::npos) {
+    std::cerr << "mpirun does not start here, ranks not compared: " << r.err;
+  } else {
+    ASSERT_EQ(r.exit_code, 0) << r.err;
+    EXPECT_EQ(read_file(csv), tables[0]) << "2 ranks";
+  }
+#endif
   for (const auto& row : table(tables[0])) {
     EXPECT_EQ(num(row, "runs_completed"), 6);
     EXPECT_GT(num(row, "final_deviation_max"), num(row, "final_deviation_mean"));  // the runs differ

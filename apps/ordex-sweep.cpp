@@ -1,4 +1,4 @@
-// ordex-sweep: one job (floquet, gramian, regulate, respond) over a parameter grid or random
+// ordex-sweep: one job (floquet, gramian, regulate, respond, simulate) over a parameter grid or random
 // samples (CONTRACT.md "ordex-sweep", docs/sweep.md), the sweep of lib/sweep/sweep.hpp. The
 // model is parsed once per process; points run on threads, or on MPI ranks under mpirun (rank 0
 // hands out points and writes the table in point order). The table is byte-identical whatever
@@ -38,7 +38,10 @@ const char* const kAbout =
     "Jobs and their key figures (columns): floquet: max_abs_multiplier, stable (1/0) over one period from "
     "--from; gramian: rank, lambda_min, lambda_max, condition, weakest_<state>; regulate: p0_max_eigenvalue "
     "(with --x0 also cost), closed_loop_ok and, for a periodic model, closed_loop_max_abs_multiplier; "
-    "respond: final_<state>. Give --job NAME --help for the job's own options.\n"
+    "respond: final_<state>; simulate (a nonlinear model: a batch of --point-runs runs, dispersed with --disperse, "
+    "seeded from --seed and the point's index): runs_completed, runs_failed, final_mean_<state>, "
+    "final_deviation_mean, final_deviation_max, peak_deviation_max, peak_input_max, cost_mean (the nominal is "
+    "integrated again with each point's values). Give --job NAME --help for the job's own options.\n"
     "--csv writes one row per point in point order: the parameters, the key figures, then error (empty when "
     "the point succeeded; a failing point is recorded and the sweep goes on). Numbers are printed in their "
     "shortest round-trip form, so the table is the same byte for byte whatever --threads or the number of MPI ranks. Rows go to "
@@ -52,7 +55,8 @@ const char* const kAbout =
 FlagNames sweep_flag_names() {
   FlagNames f = {{"SweepOptions::grid", "--grid"}, {"SweepOptions::runs", "--runs"},
                  {"SweepOptions::sample", "--sample"}, {"SweepOptions::resume", "--resume"}};
-  for (const FlagNames* more : {&gramian_flag_names(), &regulate_flag_names(), &respond_flag_names()})
+  for (const FlagNames* more : {&gramian_flag_names(), &regulate_flag_names(), &respond_flag_names(),
+                                &simulate_flag_names(/*in_sweep=*/true)})
     f.insert(f.end(), more->begin(), more->end());
   return f;
 }
@@ -79,7 +83,8 @@ struct Sweep {
   int threads = 1;
   bool resume = false;
   std::unique_ptr<System> model;
-  std::unique_ptr<ExpressionSystem> base;
+  std::unique_ptr<System> base;  // what each thread clones (an ExpressionSystem but for simulate)
+  std::optional<NonlinearModel> nonlinear;  // --job simulate
   std::optional<SweepPoints> points;
   SweepJobFactory make_job;
   std::unique_ptr<SweepJob> job0;  // for names, window and settings
@@ -95,13 +100,14 @@ bool build_sweep(int argc, char** argv, Sweep& s) {
   RegulateFlags regulate_flags;
   RegulatorOptions regulator_options;
   RespondFlags respond_flags;
+  SimulateFlags simulate_flags;
   po::options_description desc("Options");
   add_common_options(desc, s.common, "equally spaced times in the window, both ends included (gramian: the grid "
-                                     "of the block route; regulate: the gain schedule's grid)",
+                                     "of the block route; regulate: the gain schedule's grid; simulate: each run's output times)",
                      "write the table: one row per point, the parameters, the key figures, then error");
   s.threads = static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
   desc.add_options()
-      ("job", po::value(&s.job)->value_name("NAME"), "floquet, gramian, regulate or respond (required)")
+      ("job", po::value(&s.job)->value_name("NAME"), "floquet, gramian, regulate, respond or simulate (required)")
       ("grid", po::value(&s.grid)->value_name("NAME=FROM:TO:COUNT")->composing(),
        "COUNT equally spaced values of parameter NAME from FROM to TO; repeatable (the product, the last "
        "name varying fastest)")
@@ -110,7 +116,7 @@ bool build_sweep(int argc, char** argv, Sweep& s) {
        "(mean, sd) or \"uniform\" (low, high)")
       ("runs", po::value(&s.runs)->value_name("N"), "with --sample: the number of points")
       ("seed", po::value(&s.seed)->value_name("S")->default_value(1), "with --sample: the seed (point k's values "
-       "depend only on the seed and k)")
+       "depend only on the seed and k); with --job simulate also the seed of the points' batches")
       ("threads", po::value(&s.threads)->value_name("K")->default_value(s.threads), "threads computing points "
        "(without mpirun)")
       ("resume", po::bool_switch(&s.resume), "continue from the rows of an interrupted sweep in --csv's "
@@ -120,6 +126,7 @@ bool build_sweep(int argc, char** argv, Sweep& s) {
   if (job == "gramian") add_gramian_options(job_desc, gramian_flags, gramian_options);
   if (job == "regulate") add_regulate_options(job_desc, regulate_flags, regulator_options);
   if (job == "respond") add_respond_options(job_desc, respond_flags, /*several=*/false);
+  if (job == "simulate") add_simulate_options(job_desc, simulate_flags, /*in_sweep=*/true);
   if (!job_desc.options().empty()) desc.add(job_desc);
   po::variables_map vm;
   if (!parse_command_line(argc, argv, desc, vm, "ordex-sweep",
@@ -127,9 +134,9 @@ bool build_sweep(int argc, char** argv, Sweep& s) {
                           "--runs N) [--csv PATH] [options]",
                           kAbout))
     return false;
-  if (s.job.empty()) throw InputError("--job NAME is required (floquet, gramian, regulate or respond)");
-  if (s.job != "floquet" && s.job != "gramian" && s.job != "regulate" && s.job != "respond")
-    throw InputError("--job: unknown job '" + s.job + "' (choose floquet, gramian, regulate or respond)");
+  if (s.job.empty()) throw InputError("--job NAME is required (floquet, gramian, regulate, respond or simulate)");
+  if (s.job != "floquet" && s.job != "gramian" && s.job != "regulate" && s.job != "respond" && s.job != "simulate")
+    throw InputError("--job: unknown job '" + s.job + "' (choose floquet, gramian, regulate, respond or simulate)");
   if (s.threads < 1 || s.threads > 256) throw InputError("--threads: " + std::to_string(s.threads) + " is outside [1, 256]");
   // The points.
   if (!s.grid.empty() && !s.sample.empty()) throw InputError("--grid and --sample: give one of them");
@@ -152,10 +159,22 @@ bool build_sweep(int argc, char** argv, Sweep& s) {
       throw InputError("--set " + name + ": the sweep varies '" + name + "' (" + (s.grid.empty() ? "--sample" : "--grid") + ")");
   }
   // The model (parsed here, once) and its copy with the swept parameters free.
-  const bool floquet = s.job == "floquet", respond = s.job == "respond";
+  const bool floquet = s.job == "floquet", respond = s.job == "respond", simulate = s.job == "simulate";
   if (floquet && !s.common.to.empty()) throw InputError("--to: the floquet job's window is one period from --from");
-  AppSetup setup = setup_from_common(s.common, /*need_window=*/!floquet && !respond);
-  s.model = std::move(setup.system);
+  AppSetup setup;
+  std::shared_ptr<const NonlinearModel> nonlinear;
+  if (simulate) {
+    // The nonlinear model itself (its linearization stands for it in names and the summary).
+    NonlinearSetup ns = nonlinear_setup_from_common(s.common);
+    nonlinear = std::make_shared<const NonlinearModel>(std::move(ns.model));
+    s.model = nonlinear->linearization();
+    setup.t0 = ns.t0;
+    setup.t1 = ns.t1;
+    setup.propagation = ns.propagation;
+  } else {
+    setup = setup_from_common(s.common, /*need_window=*/!floquet && !respond);
+    s.model = std::move(setup.system);
+  }
   const std::string flag = s.grid.empty() ? "--sample" : "--grid";
   const std::vector<std::pair<std::string, double>> declared = s.model->info().parameters;
   for (const std::string& name : s.points->names())
@@ -165,10 +184,20 @@ bool build_sweep(int argc, char** argv, Sweep& s) {
       throw InputError(flag + " " + name + ": the model has no parameter '" + name + "' (" +
                        (list.empty() ? std::string("it declares no [parameters]") : "its parameters: " + list) + ")");
     }
-  s.base = make_sweep_system(*s.model, s.points->names());
+  s.base = simulate ? s.model->clone() : make_sweep_system(*s.model, s.points->names());
   const System& sys = *s.base;
   const PropagationOptions engine = setup.propagation;
-  if (floquet) {
+  if (simulate) {
+    SimulateOptions o;
+    o.from = setup.t0;
+    o.to = setup.t1;
+    o.samples = s.common.samples;
+    o.propagation = engine;
+    apply_simulate_flags(simulate_flags, sys.info(), /*in_sweep=*/true, o, s.inputs);
+    const std::uint64_t seed = s.seed;
+    const std::vector<std::string> names = s.points->names();
+    s.make_job = [nonlinear, names, o, seed] { return make_simulate_job(nonlinear, names, o, seed); };
+  } else if (floquet) {
     const double t0 = s.common.from.empty() && !sys.info().window ? 0.0 : setup.t0;
     s.make_job = [&sys, t0, engine] { return make_floquet_job(sys, t0, engine); };
   } else if (s.job == "gramian") {
@@ -443,8 +472,7 @@ void run_worker(Sweep& s) {
   std::uint64_t first = kNoStart;
   MPI_Bcast(&first, 1, MPI_UINT64_T, 0, MPI_COMM_WORLD);
   if (first == kNoStart) return;
-  std::unique_ptr<System> copy = s.base->clone();
-  auto* sys = dynamic_cast<ExpressionSystem*>(copy.get());
+  const std::unique_ptr<System> sys = s.base->clone();
   const std::unique_ptr<SweepJob> job = s.make_job();
   std::vector<std::pair<std::uint64_t, PointResult>> done;
   for (;;) {
@@ -455,7 +483,7 @@ void run_worker(Sweep& s) {
     MPI_Recv(work, 2, MPI_UINT64_T, 0, kTagWork, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
     if (work[1] == 0) return;
     for (std::uint64_t p = work[0]; p < work[0] + work[1]; ++p)
-      done.emplace_back(p, evaluate_point(*sys, *job, s.points->values(first + p), s.figures.size()));
+      done.emplace_back(p, evaluate_point(*sys, *job, s.points->values(first + p), first + p, s.figures.size()));
   }
 }
 

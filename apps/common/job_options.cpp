@@ -1,5 +1,7 @@
 #include "common/job_options.hpp"
 
+#include "io/errors.hpp"
+
 namespace ordex {
 
 const FlagNames& gramian_flag_names() {
@@ -88,6 +90,63 @@ void apply_respond_flags(const RespondFlags& f, const po::variables_map& vm, con
   o.propagation = setup.propagation;
   o.reuse_time_invariant = !vm.count("no-reuse");
   if (vm.count("x0")) o.x0 = parse_vector(f.x0, sys.states(), "--x0");
+}
+
+const FlagNames& simulate_flag_names(bool in_sweep) {
+  static const FlagNames app = {{"SimulateOptions::samples", "--samples"}, {"SimulateOptions::runs", "--runs"},
+                                {"SimulateOptions::threads", "--threads"}, {"SimulateOptions::dx0", "--dx0"},
+                                {"SimulateOptions::u_min", "--u-min"}, {"SimulateOptions::u_max", "--u-max"},
+                                {"SimulateOptions::gains", "--gains"}, {"SimulateOptions::from/to", "--from/--to"}};
+  static const FlagNames sweep = [] {
+    FlagNames f = app;
+    for (auto& [field, flag] : f)
+      if (flag == "--runs") flag = "--point-runs";
+    return f;
+  }();
+  return in_sweep ? sweep : app;
+}
+
+void add_simulate_options(po::options_description& desc, SimulateFlags& f, bool in_sweep) {
+  desc.add_options()
+      ("dx0", po::value(&f.dx0)->value_name("V"), "initial deviation from the nominal, comma-separated (default zero)")
+      ("gains", po::value(&f.gains)->value_name("PATH"), "fly the closed loop u = u_n - K(t) (x - x_n) with the gain "
+       "schedule of ordex-regulate (t,K_1_1,...,K_m_n; linear between rows); default open loop (u = u_n)")
+      ("disturbance", po::value(&f.disturbance)->value_name("PATH"), "a disturbance input history (CSV: t and "
+       "columns named after inputs, any of them; linear between rows, held outside) added to the input after the "
+       "limits")
+      ("u-min", po::value(&f.u_min)->value_name("V"), "lower input limits (saturation), one per input")
+      ("u-max", po::value(&f.u_max)->value_name("V"), "upper input limits (saturation), one per input")
+      ("disperse", po::value(&f.disperse)->value_name("PATH"), "dispersions (TOML): [initial_state] and [parameters], "
+       "NAME = { sigma = S } (normal) or { half_width = H } (uniform), added to dx0 and the parameter values");
+  if (in_sweep) {
+    desc.add_options()
+        ("point-runs", po::value(&f.runs)->value_name("N")->default_value(1), "runs at every point (with --disperse); "
+         "point k's batch is seeded from --seed and k, whatever the threads or ranks");
+    return;
+  }
+  desc.add_options()
+      ("runs", po::value(&f.runs)->value_name("N")->default_value(1), "runs (with --disperse)")
+      ("seed", po::value(&f.seed)->value_name("S")->default_value(1), "seed of the batch; run k draws from its own "
+       "stream of (S, k), whatever the number of threads")
+      ("threads", po::value(&f.threads)->value_name("N")->default_value(0), "threads (0: the machine's cores, at most 2)");
+}
+
+void apply_simulate_flags(const SimulateFlags& f, const SystemInfo& info, bool in_sweep,
+                          SimulateOptions& o, std::vector<std::string>& files) {
+  if (f.runs > 1 && f.disperse.empty())
+    throw InputError(std::string(in_sweep ? "--point-runs" : "--runs") + ": several runs need --disperse PATH");
+  const int n = static_cast<int>(info.state_names.size()), m = static_cast<int>(info.input_names.size());
+  if (!f.dx0.empty()) o.dx0 = parse_vector(f.dx0, n, "--dx0");
+  if (!f.u_min.empty()) o.u_min = parse_vector(f.u_min, m, "--u-min", "inputs");
+  if (!f.u_max.empty()) o.u_max = parse_vector(f.u_max, m, "--u-max", "inputs");
+  if (!f.gains.empty()) o.gains = std::make_shared<const GainSchedule>(read_gain_schedule(f.gains, info));
+  if (!f.disturbance.empty()) o.disturbance = std::make_shared<const SampledInput>(read_disturbance(f.disturbance, info));
+  if (!f.disperse.empty()) o.dispersions = read_dispersions(f.disperse, info);
+  for (const std::string& path : {f.gains, f.disturbance, f.disperse})
+    if (!path.empty()) files.push_back(path);
+  o.runs = f.runs;
+  o.seed = f.seed;
+  o.threads = f.threads;
 }
 
 }  // namespace ordex

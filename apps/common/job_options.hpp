@@ -1,12 +1,13 @@
 #pragma once
 // The option declarations of the jobs that several apps run (ordex-gramian, ordex-regulate,
-// ordex-respond and ordex-sweep --job ...): each job's flags declared once, bound to its
+// ordex-respond, ordex-simulate and ordex-sweep --job ...): each job's flags declared once, bound to its
 // Options, and turned into the Options after parsing.
 #include <string>
 #include <vector>
 
 #include "common/front_end.hpp"
 #include "gramian/report.hpp"
+#include "nonlinear/simulate.hpp"
 #include "response/respond.hpp"
 #include "riccati/regulator.hpp"
 
@@ -46,5 +47,23 @@ void apply_respond_flags(const RespondFlags& f, const po::variables_map& vm, con
                          const AppSetup& setup, RespondOptions& o);
 /// The job's Options fields and their flags (a function: apps build their tables from it at start-up).
 const FlagNames& respond_flag_names();
+
+/// --dx0 --gains --disturbance --u-min --u-max --disperse --runs --seed --threads of the
+/// simulate job.
+struct SimulateFlags {
+  std::string dx0, gains, disturbance, u_min, u_max, disperse;
+  int runs = 1, threads = 0;
+  unsigned long long seed = 1;
+};
+/// IN_SWEEP: ordex-sweep's form: each point's runs are --point-runs (--runs counts a sweep's
+/// samples), and there is no --seed or --threads (the sweep's own seed the points' batches and
+/// spread the points over threads).
+void add_simulate_options(po::options_description& desc, SimulateFlags& f, bool in_sweep);
+/// The deviation, gain schedule, disturbance, limits, dispersions, runs, seed and threads of F
+/// into O for a model with INFO's names (the files are read here; their paths are added to FILES).
+void apply_simulate_flags(const SimulateFlags& f, const SystemInfo& info, bool in_sweep,
+                          SimulateOptions& o, std::vector<std::string>& files);
+/// The job's Options fields and their flags (IN_SWEEP as above).
+const FlagNames& simulate_flag_names(bool in_sweep);
 
 }  // namespace ordex

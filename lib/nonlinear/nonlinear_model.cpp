@@ -251,8 +251,11 @@ NonlinearModel NonlinearReader::load(const PropagationOptions& options) {
     const toml::array* a = nom.get("x0")->as_array();
     if (!a || a->size() != n)
       fail("nominal.x0", "expected a list of " + std::to_string(n) + " numbers or expressions (one per state)");
+    // The parameters are variables here only to learn which ones x0 uses (a sweep must know).
+    std::vector<double> values;
+    for (const auto& par : spec_.parameters) values.push_back(par.second);
     SymbolScope constants;
-    for (const auto& par : spec_.parameters) constants.add_constant(par.first, par.second);
+    for (std::size_t j = 0; j < values.size(); ++j) constants.add_variable(spec_.parameters[j].first, &values[j]);
     model.nominal_x0.resize(static_cast<Eigen::Index>(n));
     for (std::size_t i = 0; i < n; ++i) {
       const toml::node& item = *a->get(i);
@@ -260,11 +263,19 @@ NonlinearModel NonlinearReader::load(const PropagationOptions& options) {
       double v;
       if (item.is_integer()) v = static_cast<double>(item.as_integer()->get());
       else if (item.is_floating_point()) v = item.as_floating_point()->get();
-      else if (item.is_string()) v = Expression(item.as_string()->get(), constants, path_ + ": " + k).eval();
+      else if (item.is_string()) {
+        const Expression e(item.as_string()->get(), constants, path_ + ": " + k);
+        v = e.eval();
+        for (const std::string& used : e.variables_used())
+          if (std::find(model.nominal_x0_parameters.begin(), model.nominal_x0_parameters.end(), used) ==
+              model.nominal_x0_parameters.end())
+            model.nominal_x0_parameters.push_back(used);
+      }
       else fail(k, "expected a number or an expression of the parameters");
       if (!std::isfinite(v)) fail(k, "not finite");
       model.nominal_x0(static_cast<Eigen::Index>(i)) = v;
     }
+    model.nominal_integrated = true;
     model.nominal = NominalStates::integrate(plant, model.nominal_x0, t0, t1, ode_options(options, OdeScheme::Adams),
                                              info.breakpoints);
   }

@@ -6,6 +6,7 @@
 // every module accepts.
 #include <memory>
 #include <string>
+#include <vector>
 
 #include "model/model_file.hpp"
 #include "model/system.hpp"
@@ -20,6 +21,10 @@ struct NonlinearModel {
   std::shared_ptr<const PlantDefinition> plant;
   std::shared_ptr<const NominalStates> nominal;
   Eigen::VectorXd nominal_x0;  ///< x_n at the start of the window
+  /// True when the nominal was integrated from nominal_x0 (false: read from nominal.trajectory).
+  bool nominal_integrated = false;
+  /// The parameters that nominal.x0's expressions use (a sweep refuses to vary them).
+  std::vector<std::string> nominal_x0_parameters;
   /// The linearization about the nominal (a new System with its own evaluator).
   std::unique_ptr<System> linearization() const;
   /// A new evaluator of the plant (one per thread).

@@ -23,12 +23,11 @@ std::unique_ptr<ExpressionSystem> make_sweep_system(const System& sys, const std
   return std::make_unique<ExpressionSystem>(model->spec(), names);
 }
 
-PointResult evaluate_point(ExpressionSystem& sys, const SweepJob& job, const std::vector<double>& values,
+PointResult evaluate_point(System& sys, const SweepJob& job, const std::vector<double>& values, std::size_t k,
                            std::size_t nfigures) {
   PointResult r;
   try {
-    sys.set_parameters(values);
-    r.figures = job.figures(sys);
+    r.figures = job.point_figures(sys, values, k);
     if (r.figures.size() != nfigures)
       throw std::logic_error("the job gave " + std::to_string(r.figures.size()) + " figures, expected " +
                              std::to_string(nfigures));
@@ -56,7 +55,7 @@ void OrderedResults::add(std::size_t position, PointResult result) {
     emit_(next_++, it->second);
 }
 
-void run_points_on_threads(const ExpressionSystem& base, const SweepJobFactory& make_job, const SweepPoints& points,
+void run_points_on_threads(const System& base, const SweepJobFactory& make_job, const SweepPoints& points,
                            const std::vector<std::size_t>& todo, int threads,
                            const std::function<void(std::size_t k, const PointResult&)>& emit) {
   if (todo.empty()) return;
@@ -68,15 +67,14 @@ void run_points_on_threads(const ExpressionSystem& base, const SweepJobFactory& 
   OrderedResults ordered([&](std::size_t position, const PointResult& r) { emit(todo[position], r); });
   auto worker = [&] {
     try {
-      std::unique_ptr<System> copy = base.clone();
-      auto* sys = dynamic_cast<ExpressionSystem*>(copy.get());
+      std::unique_ptr<System> sys = base.clone();
       const std::unique_ptr<SweepJob> job = make_job();
       const std::size_t nfig = job->figure_names(*sys).size();
       for (;;) {
         if (stop) return;
         const std::size_t i = next++;
         if (i >= todo.size()) return;
-        PointResult r = evaluate_point(*sys, *job, points.values(todo[i]), nfig);
+        PointResult r = evaluate_point(*sys, *job, points.values(todo[i]), todo[i], nfig);
         std::lock_guard<std::mutex> lock(mutex);
         if (stop) return;
         ordered.add(i, std::move(r));

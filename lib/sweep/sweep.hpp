@@ -35,9 +35,11 @@ struct PointResult {
 /// breakpoints or window are computed from one of them.
 std::unique_ptr<ExpressionSystem> make_sweep_system(const System& sys, const std::vector<std::string>& names);
 
-/// Sets SYS's free parameters to VALUES and runs JOB; any failure (bad values, a numerical
-/// failure, anything thrown) is caught and becomes the result's error with NFIGURES NaN figures.
-PointResult evaluate_point(ExpressionSystem& sys, const SweepJob& job, const std::vector<double>& values,
+/// Runs JOB at point K with the swept parameters at VALUES (JOB.point_figures: by default SYS, an
+/// ExpressionSystem from make_sweep_system, takes the values); any failure (bad values, a
+/// numerical failure, anything thrown) is caught and becomes the result's error with NFIGURES NaN
+/// figures.
+PointResult evaluate_point(System& sys, const SweepJob& job, const std::vector<double>& values, std::size_t k,
                            std::size_t nfigures);
 
 /// Hands results that finish in any order on to EMIT in ascending position order (positions
@@ -56,10 +58,10 @@ class OrderedResults {
 };
 
 /// Runs the points TODO (indices into POINTS) on THREADS threads (each with its own clone of
-/// BASE and its own job from MAKE_JOB), handing each point out as a thread becomes free, and
+/// BASE, the system the job's point_figures is given, and its own job from MAKE_JOB), handing each point out as a thread becomes free, and
 /// calls EMIT(k, result) for them in the order of TODO, from one thread at a time. An exception
 /// from EMIT stops the run and is rethrown.
-void run_points_on_threads(const ExpressionSystem& base, const SweepJobFactory& make_job, const SweepPoints& points,
+void run_points_on_threads(const System& base, const SweepJobFactory& make_job, const SweepPoints& points,
                            const std::vector<std::size_t>& todo, int threads,
                            const std::function<void(std::size_t k, const PointResult&)>& emit);
 

@@ -1,9 +1,13 @@
 #include "sweep/sweep_jobs.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 
 #include "io/errors.hpp"
+#include "model/expression_system.hpp"
+#include "nonlinear/nominal.hpp"
+#include "propagation/ode_integrator.hpp"
 #include "propagation/propagate_report.hpp"
 
 namespace ordex {
@@ -167,7 +171,124 @@ class RespondJob : public SweepJob {
   RespondOptions o_;
 };
 
+class SimulateJob : public SweepJob {
+ public:
+  SimulateJob(std::shared_ptr<const NonlinearModel> model, std::vector<int> swept, SimulateOptions o, std::uint64_t seed)
+      : model_(std::move(model)), swept_(std::move(swept)), o_(std::move(o)), seed_(seed) {
+    o_.threads = 1;
+    o_.keep_histories = false;
+    const SystemInfo& info = model_->info();
+    o_.validate(static_cast<int>(info.state_names.size()), static_cast<int>(info.input_names.size()));
+    t0_ = o_.from.value_or(info.window->first);
+    t1_ = o_.to.value_or(info.window->second);
+  }
+  std::string name() const override { return "simulate"; }
+  double t0() const override { return t0_; }
+  double t1() const override { return t1_; }
+  std::vector<std::string> figure_names(const System&) const override {
+    std::vector<std::string> n = {"runs_completed", "runs_failed"};
+    for (const std::string& s : prefixed("final_mean_", model_->info().state_names)) n.push_back(s);
+    for (const char* s : {"final_deviation_mean", "final_deviation_max", "peak_deviation_max", "peak_input_max", "cost_mean"})
+      n.push_back(s);
+    return n;
+  }
+  /// The batch on the model as loaded (its own parameter values).
+  std::vector<double> figures(const System&) const override { return batch(*model_, seed_); }
+  std::vector<double> point_figures(System&, const std::vector<double>& values, std::size_t k) const override {
+    // The point's model: the definition with the point's values; the evaluators simulate makes
+    // from it (and the linearization) start at them, and so does the nominal input.
+    auto def = std::make_shared<PlantDefinition>(*model_->plant);
+    for (std::size_t i = 0; i < swept_.size(); ++i) def->info.parameters[static_cast<std::size_t>(swept_[i])].second = values.at(i);
+    NonlinearModel m = *model_;
+    m.plant = def;
+    if (m.nominal_integrated) {
+      // The nominal is a solution of the plant: with other parameters it is another curve.
+      PlantEvaluator plant(def);
+      m.nominal = NominalStates::integrate(plant, m.nominal_x0, def->info.window->first, def->info.window->second,
+                                           ode_options(o_.propagation, OdeScheme::Adams), def->info.breakpoints);
+    }
+    return batch(m, point_seed(seed_, k));
+  }
+  Json settings() const override {
+    Json j = engine_json(o_.propagation);
+    j["runs"] = o_.runs;
+    j["seed"] = seed_;
+    j["closed_loop"] = o_.gains != nullptr;
+    j["samples"] = o_.samples;
+    if (o_.dx0.size()) j["dx0"] = vector_to_json(o_.dx0);
+    j["dispersions"] = !o_.dispersions.empty();
+    return j;
+  }
+
+ private:
+  std::vector<double> batch(const NonlinearModel& m, std::uint64_t seed) const {
+    SimulateOptions o = o_;
+    o.seed = seed;
+    const SimulateReport r = simulate(m, o);
+    const RunStatistics& s = r.statistics;
+    if (s.completed == 0) throw NumericalError("every run failed; run 1: " + r.runs.at(0).failure);
+    const Eigen::Index n = r.nominal_final.size();
+    Eigen::VectorXd mean = Eigen::VectorXd::Zero(n);
+    double dev_mean = 0, dev_max = 0;
+    for (const RunSummary& run : r.runs) {
+      if (!run.ok) continue;
+      mean += run.x_final;
+      const double d = run.dx_final.norm();
+      dev_mean += d;
+      dev_max = std::max(dev_max, d);
+    }
+    mean /= s.completed;
+    dev_mean /= s.completed;
+    std::vector<double> f = {static_cast<double>(s.completed), static_cast<double>(s.failed)};
+    f.insert(f.end(), mean.data(), mean.data() + n);
+    for (double v : {dev_mean, dev_max, s.peak_deviation_max, s.peak_input_max, s.cost_mean}) f.push_back(v);
+    return f;
+  }
+
+  std::shared_ptr<const NonlinearModel> model_;
+  std::vector<int> swept_;
+  SimulateOptions o_;
+  std::uint64_t seed_;
+  double t0_ = 0, t1_ = 0;
+};
+
 }  // namespace
+
+std::vector<double> SweepJob::point_figures(System& sys, const std::vector<double>& values, std::size_t) const {
+  auto* model = dynamic_cast<ExpressionSystem*>(&sys);
+  if (!model) throw std::logic_error("the " + name() + " job needs a system from make_sweep_system");
+  model->set_parameters(values);
+  return figures(sys);
+}
+
+std::uint64_t point_seed(std::uint64_t seed, std::size_t k) {
+  // splitmix64 of the seed, mixed with k and mixed again: nearby (seed, k) give unrelated seeds.
+  auto mix = [](std::uint64_t z) {
+    z += 0x9e3779b97f4a7c15ULL;
+    z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
+    z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
+    return z ^ (z >> 31);
+  };
+  return mix(mix(seed) ^ static_cast<std::uint64_t>(k));
+}
+
+std::unique_ptr<SweepJob> make_simulate_job(std::shared_ptr<const NonlinearModel> model,
+                                            const std::vector<std::string>& swept, SimulateOptions options,
+                                            std::uint64_t seed) {
+  const SystemInfo& info = model->info();
+  std::vector<int> indices;
+  for (const std::string& name : swept) {
+    auto it = std::find_if(info.parameters.begin(), info.parameters.end(), [&](const auto& p) { return p.first == name; });
+    if (it == info.parameters.end()) throw InputError(model->plant->path + ": the model has no parameter '" + name + "'");
+    const auto& used = model->nominal_x0_parameters;
+    if (std::find(used.begin(), used.end(), name) != used.end())
+      throw InputError(model->plant->path + ": nominal.x0 uses parameter '" + name +
+                       "', which the sweep varies: the nominal's initial state is computed once, at load; write "
+                       "nominal.x0 without it (or give the deviation with --dx0) to sweep it");
+    indices.push_back(static_cast<int>(it - info.parameters.begin()));
+  }
+  return std::make_unique<SimulateJob>(std::move(model), std::move(indices), std::move(options), seed);
+}
 
 std::unique_ptr<SweepJob> make_floquet_job(const System& sys, double t0, const PropagationOptions& propagation) {
   return std::make_unique<FloquetJob>(t0, floquet_window_end(sys, t0), propagation);

@@ -5,6 +5,7 @@
 //
 // Adding a job: derive from SweepJob (figure_names, figures, a settings() for the summary),
 // give it a make_*_job function here, and a --job choice with its options in ordex-sweep.
+#include <cstdint>
 #include <functional>
 #include <memory>
 #include <optional>
@@ -14,6 +15,7 @@
 #include "gramian/report.hpp"
 #include "io/json.hpp"
 #include "model/system.hpp"
+#include "nonlinear/simulate.hpp"
 #include "propagation/options.hpp"
 #include "response/input_history.hpp"
 #include "response/respond.hpp"
@@ -36,6 +38,10 @@ class SweepJob {
   virtual std::vector<double> figures(const System& sys) const = 0;
   /// The job's settings for the sweep's summary.
   virtual Json settings() const = 0;
+  /// The key figures at point K whose swept parameters take VALUES. By default SYS (an
+  /// ExpressionSystem from make_sweep_system) takes VALUES and figures(SYS) gives them; a job
+  /// on another kind of model (simulate) overrides this and ignores SYS.
+  virtual std::vector<double> point_figures(System& sys, const std::vector<double>& values, std::size_t k) const;
 };
 
 /// Makes one job per thread (jobs may hold state that must not be shared, such as weights with
@@ -60,5 +66,21 @@ std::unique_ptr<SweepJob> make_regulate_job(const System& sys, double t0, double
 /// The response to HISTORY (or the free response when the model has no inputs and HISTORY is
 /// empty) over [T0, T1]: the final state, columns final_<state>.
 std::unique_ptr<SweepJob> make_respond_job(double t0, double t1, std::optional<InputHistory> history, RespondOptions options);
+
+/// A simulate batch at every point (lib/nonlinear/simulate.hpp) on MODEL with the parameters
+/// SWEPT (names) at the point's values: MODEL's definition is copied with those values (no file
+/// is read again), and an integrated nominal is integrated again from nominal_x0 with them, so
+/// that the nominal, its input and the linearization are those of the point. A swept parameter
+/// that nominal.x0 uses is refused (InputError naming it). The batch's seed at point k is
+/// point_seed(SEED, k); OPTIONS.threads is set to 1 (the sweep parallelizes over points).
+/// Figures: runs_completed, runs_failed, final_mean_<state> (the mean final state),
+/// final_deviation_mean, final_deviation_max (of |x(t1) - x_n(t1)|), peak_deviation_max,
+/// peak_input_max, cost_mean; a point whose every run fails throws the first run's failure.
+std::unique_ptr<SweepJob> make_simulate_job(std::shared_ptr<const NonlinearModel> model,
+                                            const std::vector<std::string>& swept, SimulateOptions options,
+                                            std::uint64_t seed);
+/// The seed of point K's batch in a sweep seeded with SEED (a mix of both, the same on every
+/// thread and rank).
+std::uint64_t point_seed(std::uint64_t seed, std::size_t k);
 
 }  // namespace ordex

@@ -44,4 +44,27 @@ say "Discrete-time model of the orbit scenario on a one-minute grid" \
 say "A time-varying regulator for the final approach, flown from an offset" \
     "$bin/ordex-regulate --model $orbit --weights models/orbit_approach_weights.toml --x0 0.4,-2.5,0.3,0,0,0 --csv $out/gains.csv --response-csv $out/approach.csv"
 
+say "The gain that stabilizes the pumped oscillator for all time (periodic steady state)" \
+    "$bin/ordex-regulate --model models/pumped_oscillator.toml --periodic --csv $out/periodic_gains.csv"
+
+say "Navigation error budget of the towed sled: covariance analysis on its sensor plan" \
+    "$bin/ordex-estimate --model models/sled_depth.toml --noise models/sled_depth_noise.toml --measurements models/sled_depth_sensors.toml --sigma-csv $out/sled_sigma.csv"
+
+say "The nonlinear chaser linearized along its nominal (exact Jacobians)" \
+    "$bin/ordex-linearize --model models/chaser_two_body.toml --csv $out/chaser_lin.csv --toml $out/chaser_lin.toml"
+
+say "A regulator designed on that linearization ..." \
+    "$bin/ordex-regulate --model models/chaser_two_body.toml --weights models/orbit_approach_weights.toml --csv $out/chaser_gains.csv --no-check"
+
+say "... flown on the nonlinear plant over 100 dispersed runs" \
+    "$bin/ordex-simulate --model models/chaser_two_body.toml --gains $out/chaser_gains.csv --disperse models/chaser_dispersions.toml --runs 100 --seed 3 --json $out/chaser_runs.json"
+
+say "Stability chart of the pumped rig over detuning and pump depth (one row per point)" \
+    "$bin/ordex-sweep --model models/pumped_oscillator_chart.toml --job floquet --grid detuning=-0.4:0.4:21 --grid pump=0:0.8:9 --csv $out/chart.csv"
+
+if [ -x "$bin/ordex-plot" ]; then
+  say "Pictures: the Floquet multipliers, the sled's error budget, the stability chart" \
+      "$bin/ordex-propagate --model models/pumped_oscillator.toml --floquet --json $out/floquet.json >/dev/null && $bin/ordex-plot $out/floquet.json -o $out/floquet.svg && $bin/ordex-plot $out/sled_sigma.csv -o $out/sled_sigma.svg && $bin/ordex-plot $out/chart.csv -o $out/chart.svg && ls $out/*.svg"
+fi
+
 printf '\nFiles written to %s/\n' "$out"

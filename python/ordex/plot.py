@@ -27,6 +27,8 @@ gramian            ordex-gramian JSON (``eigenvalues``)            the eigenvalu
 gain_schedule      ordex-regulate --csv (t,K_1_1,...) or JSON      entries of K(t)
 matrix_series      other t,PREFIX_i_j CSV (P of --p-csv, W(t0,t))  entries over time
 discrete           ordex-discretize CSV (k,t_start,...) or JSON    step growth
+sweep              ordex-sweep --csv (parameters,...,error)        a chart over two parameters
+                                                                   (--columns picks the figure)
 response           t,<names> CSV (ordex-respond, inputs, runs)     the columns over time,
                                                                    several runs overlaid
 response_summary   ordex-respond JSON (``runs``)                   final states of each run
@@ -93,6 +95,10 @@ def _read_csv(path):
                     continue
                 if len(fields) != len(header):
                     raise PlotInputError("%s:%d: %d fields, the header has %d" % (path, lineno, len(fields), len(header)))
+                if header[-1] == "error":
+                    # An ordex-sweep table: its last column is the point's error text (empty when
+                    # the point succeeded); kept as 0 (succeeded) or 1 (failed).
+                    fields = fields[:-1] + ["1" if fields[-1] else "0"]
                 try:
                     rows.append([float(x) for x in fields])
                 except ValueError:
@@ -170,6 +176,8 @@ def kind_of(result):
             return "discrete"
         if h == _PROFILE_HEADER:
             return "gramian_profile"
+        if h[-1] == "error" and len(h) >= 3:
+            return "sweep"
         if h[0] == "t" and len(h) > 1:
             prefix = _matrix_prefix(h[1:])
             if prefix == "phi":
@@ -523,7 +531,70 @@ def plot_response_summary(result):
     return fig
 
 
+def plot_sweep(result, figure=None):
+    """An ordex-sweep table: over two parameters (the first two columns), a chart of FIGURE (a key
+    figure column; default max_abs_multiplier for a Floquet sweep, else the first figure) with
+    the failed points marked; over one parameter, FIGURE against it. The unit-modulus contour is
+    drawn on a Floquet chart (inside: every multiplier decays)."""
+    r = load(result)
+    h = r.header
+    if figure is None:
+        figure = "max_abs_multiplier" if "max_abs_multiplier" in h else None
+    params = []
+    for c in h[:-1]:
+        # The parameters come first: columns before the first key figure (sweep tables list
+        # them in grid order, the last varying fastest).
+        if c == figure or c in ("max_abs_multiplier", "stable", "rank", "lambda_min", "p0_max_eigenvalue",
+                                "runs_completed") or c.startswith("final_"):
+            break
+        params.append(c)
+    if not params:
+        raise PlotInputError("%s: no parameter columns before the key figures" % r.source)
+    if figure is None:
+        rest = [c for c in h[len(params):-1]]
+        if not rest:
+            raise PlotInputError("%s: no key figure columns" % r.source)
+        figure = rest[0]
+    if figure not in h:
+        raise PlotInputError("%s: no column %r (columns: %s)" % (r.source, figure, ",".join(h)))
+    z = r.column(figure)
+    failed = r.column("error") > 0
+    fig, ax = _new_figure(size=(6.5, 5.0))
+    ax = ax[0, 0]
+    if len(params) >= 2:
+        x, y = r.column(params[0]), r.column(params[1])
+        xs, ys = np.unique(x), np.unique(y)
+        if len(xs) * len(ys) == len(z) and len(xs) > 1 and len(ys) > 1:
+            # A full grid: the first parameter varies slowest.
+            grid = z.reshape(len(xs), len(ys)).T
+            mesh = ax.pcolormesh(xs, ys, grid, shading="nearest", cmap="viridis")
+            fig.colorbar(mesh, ax=ax, label=figure)
+            if figure == "max_abs_multiplier" and np.nanmin(grid) < 1 < np.nanmax(grid):
+                ax.contour(xs, ys, grid, levels=[1.0], colors="w", linewidths=1.5)
+        else:
+            sc = ax.scatter(x, y, c=z, cmap="viridis", s=30)
+            fig.colorbar(sc, ax=ax, label=figure)
+        if failed.any():
+            ax.scatter(x[failed], y[failed], marker="x", color="r", s=40, label="failed point")
+            ax.legend(fontsize="small")
+        ax.set_xlabel(params[0])
+        ax.set_ylabel(params[1])
+    else:
+        x = r.column(params[0])
+        ax.plot(x[~failed], z[~failed], ".-", label=figure)
+        if failed.any():
+            ax.plot(x[failed], np.zeros(failed.sum()), "rx", label="failed point")
+        ax.set_xlabel(params[0])
+        ax.set_ylabel(figure)
+        ax.grid(True, alpha=0.3)
+        ax.legend(fontsize="small")
+    ax.set_title("%s
+%s over %s" % (os.path.basename(r.source), figure, " x ".join(params[:2])))
+    return fig
+
+
 _PLOTTERS = {
+    "sweep": plot_sweep,
     "transition": plot_transition,
     "floquet": plot_floquet,
     "gramian_profile": plot_gramian_profile,
@@ -558,6 +629,8 @@ def plot(result, entries=None, columns=None):
             return plot_responses([r], columns=columns)
         if kind in ("transition", "gain_schedule", "matrix_series"):
             return _PLOTTERS[kind](r, entries=entries)
+        if kind == "sweep":
+            return plot_sweep(r, figure=columns[0] if columns else None)
         if entries:
             raise PlotInputError("%s: entries are for matrix series, not a %s result" % (_source(r), kind))
         if columns:

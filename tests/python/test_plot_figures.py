@@ -46,6 +46,8 @@ class PlotFigures(unittest.TestCase):
         cls.constant = os.path.join(DATA, "response_constant.toml")
         run(["ordex-discretize", "--model", cls.constant, "--from", 0, "--to", 4, "--step", 0.25,
              "--csv", f"{d}/discrete.csv", "--json", f"{d}/discrete.json"])
+        run(["ordex-sweep", "--model", mathieu, "--job", "floquet", "--grid", "a=0.2:2.2:6", "--grid", "q=0:1.5:4",
+             "--csv", f"{d}/chart.csv"])
 
     @classmethod
     def tearDownClass(cls):
@@ -108,6 +110,26 @@ class PlotFigures(unittest.TestCase):
         # Stegun fig. 20.1, recalled from memory): one multiplier outside the unit circle.
         self.assertGreater(max(np.hypot(points[:, 0], points[:, 1])), 1.0)
         self.assertFalse(data["floquet"]["stable"])
+
+    def test_sweep_chart_is_the_table_on_its_grid(self):
+        with open(self.path("chart.csv")) as f:
+            header = f.readline().strip().split(",")
+            rows = [line.rstrip("\n").split(",") for line in f]
+        self.assertEqual(header[-1], "error")
+        self.assertTrue(all(r[-1] == "" for r in rows))
+        table = {name: np.array([float(r[i]) for r in rows]) for i, name in enumerate(header[:-1])}
+        self.assertEqual(plot.kind_of(self.path("chart.csv")), "sweep")
+        fig = plot.plot(self.path("chart.csv"))
+        ax = fig.axes[0]
+        self.assertEqual((ax.get_xlabel(), ax.get_ylabel()), ("a", "q"))
+        mesh = ax.collections[0]
+        # The grid's first parameter varies slowest: the chart's rows are q, its columns a.
+        z = np.asarray(mesh.get_array()).reshape(4, 6)
+        np.testing.assert_array_equal(z, np.asarray(table["max_abs_multiplier"]).reshape(6, 4).T)
+        # Mathieu's equation (trace A = 0): det M = 1, so max |mu| >= 1 at every point, and q = 0
+        # (the free oscillator) sits on the unit circle.
+        self.assertTrue(np.all(z >= 1 - 1e-9))
+        np.testing.assert_allclose(z[0], 1.0, atol=1e-7)
 
     def test_gramian_profile_from_csv_and_json(self):
         header, values = read_csv(self.path("profile.csv"))

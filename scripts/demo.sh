@@ -56,8 +56,8 @@ say "The nonlinear chaser linearized along its nominal (exact Jacobians)" \
 say "A regulator designed on that linearization ..." \
     "$bin/ordex-regulate --model models/chaser_two_body.toml --weights models/orbit_approach_weights.toml --csv $out/chaser_gains.csv --no-check"
 
-say "... flown on the nonlinear plant over 100 dispersed runs" \
-    "$bin/ordex-simulate --model models/chaser_two_body.toml --gains $out/chaser_gains.csv --disperse models/chaser_dispersions.toml --runs 100 --seed 3 --json $out/chaser_runs.json"
+say "... flown on the nonlinear plant over 200 dispersed runs" \
+    "$bin/ordex-simulate --model models/chaser_two_body.toml --gains $out/chaser_gains.csv --disperse models/chaser_dispersions.toml --runs 200 --seed 3 --json $out/chaser_runs.json"
 
 say "Stability chart of the pumped rig over detuning and pump depth (one row per point)" \
     "$bin/ordex-sweep --model models/pumped_oscillator_chart.toml --job floquet --grid detuning=-0.4:0.4:21 --grid pump=0:0.8:9 --csv $out/chart.csv"

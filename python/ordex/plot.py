@@ -588,8 +588,7 @@ def plot_sweep(result, figure=None):
         ax.set_ylabel(figure)
         ax.grid(True, alpha=0.3)
         ax.legend(fontsize="small")
-    ax.set_title("%s
-%s over %s" % (os.path.basename(r.source), figure, " x ".join(params[:2])))
+    ax.set_title("%s\n%s over %s" % (os.path.basename(r.source), figure, " x ".join(params[:2])))
     return fig
 
 

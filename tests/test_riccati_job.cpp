@@ -228,3 +228,23 @@ TEST(RegulatorJob, ValidateNamesTheFields) {
   for (const std::string& m : {fails(o), input_error_of([&] { regulate(*sys, 1.0, 0.0, {}); })})
     EXPECT_EQ(m.find("--"), std::string::npos) << m;
 }
+
+TEST(RegulatorJob, ModelDefinedOnlyOnTheWindowIsNeverEvaluatedBeyondIt) {
+  // The lateral-vehicle model reads its speed from a table that refuses times outside [0, 20]
+  // (outside = "error"), and its window is that span: both Riccati routes, the closed-loop run
+  // and the transition matrix must keep inside it (CVODE stops on the window's ends).
+  auto sys = load_model(ordex_test::model_path("vehicle_lateral.toml"));
+  ASSERT_TRUE(sys->info().defined_span.has_value());
+  for (RiccatiSolver solver : {RiccatiSolver::RiccatiOde, RiccatiSolver::Hamiltonian}) {
+    RegulatorOptions o;
+    o.riccati.solver = solver;
+    o.x0 = Eigen::VectorXd::Constant(4, 0.1);
+    const RegulatorReport r = regulate(*sys, 0.0, 20.0, o);
+    EXPECT_EQ(r.closed_loop.status, ClosedLoopCheck::Status::Done) << r.closed_loop.reason;
+    // The optimal-cost identity (Kalman 1960): the simulated closed-loop cost equals x0' P(t0) x0.
+    ASSERT_TRUE(r.closed_loop.run.has_value());
+    const double predicted = o.x0->dot(r.P0 * *o.x0);
+    EXPECT_NEAR(r.closed_loop.run->cost_simulated, predicted, 1e-4 * predicted);
+    EXPECT_NEAR(r.closed_loop.run->cost_predicted, predicted, 1e-9 * predicted);
+  }
+}

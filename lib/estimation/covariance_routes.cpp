@@ -36,6 +36,7 @@ struct CovarianceRoute::Impl {
         eq.W = [T](double t, MatrixRef W) { T->at(t); W = T->Rn_inv; };
       }
       eq.breakpoints = s.breakpoints_between(a, b);
+      eq.breakpoints.insert(eq.breakpoints.end(), {a, b});  // never step past the ends (riccati_ode.cpp)
       eq.label = with_filter ? "Kalman-Bucy equation (CVODE BDF)" : "covariance equation (CVODE BDF)";
       eq.symbol = "P";
       OdeOptions ode_opts = ode_options(options, OdeScheme::Bdf);

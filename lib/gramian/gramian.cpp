@@ -133,6 +133,7 @@ GramianResult compute_gramian(const System& sys, double t0, double t1, const Gra
   } else {
     WeightedPair pair = pair_for_kind(sys, options.kind);
     pair.breakpoints = sys.breakpoints_between(t0, t1);  // with the switching times in the window
+    pair.breakpoints.insert(pair.breakpoints.end(), {t0, t1});  // never step past the ends (riccati_ode.cpp)
     const OdeOptions o = ode_options(options.propagation, OdeScheme::Adams);
     OdeStats st;
     // The ODE's solution need not be semidefinite: its graded factor drops the negative part

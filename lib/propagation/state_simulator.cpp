@@ -137,6 +137,10 @@ SimulationResult run_once(const StateSimulation& sim, double t0, const Eigen::Ve
   p.label = sim.plant.label;
   p.breakpoints = sim.plant.breakpoints;
   p.breakpoints.insert(p.breakpoints.end(), sim.input.samples.times.begin(), sim.input.samples.times.end());
+  // The run's ends too: CVODE stops on them instead of stepping past, so a plant defined only on
+  // the window (a table with outside = "error") is never evaluated beyond it.
+  p.breakpoints.push_back(t0);
+  if (!times.empty()) p.breakpoints.push_back(times.back());
   p.rhs = [w](double t, const double* y, double* ydot) { w->rhs(t, y, ydot); };
   p.name_of = [w, n](int i) -> std::string {
     if (i == n) return "the running cost";

@@ -59,6 +59,10 @@ void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOpti
   // The integrator lands on every breakpoint and takes the coefficients there from the side
   // being integrated, so a plant that jumps is followed exactly.
   eq.breakpoints = sys.breakpoints_between(t0, t1);
+  // The window's ends too: CVODE then stops on them instead of stepping past and interpolating
+  // back, so a model defined only on the window (a table with outside = "error") is never
+  // evaluated beyond it.
+  eq.breakpoints.insert(eq.breakpoints.end(), {t0, t1});
   eq.label = "Riccati equation (CVODE BDF)";
   eq.symbol = "P";
   // The route is BDF whatever PropagationOptions::method says (riccati_solver.hpp).

@@ -76,7 +76,9 @@ def main(argv):
                    help="matrix entries to draw instead of the default (e.g. 1_1,2_1 or phi_1_2): for a transition "
                         "matrix (default: its singular values), a gain schedule or a matrix series (default: all)")
     p.add_argument("--columns", metavar="NAMES",
-                   help="columns of a response to draw, comma-separated names from its header (default: all)")
+                   help="columns of a response to draw, comma-separated names from its header (default: all); "
+                        "for an ordex-sweep table, the key figure to chart (default: max_abs_multiplier, "
+                        "else the first)")
     p.add_argument("--dpi", metavar="N", type=int, default=150, help="resolution of a PNG (default 150)")
     p.add_argument("--version", action="version", version="%s (ordex) @PROJECT_VERSION@" % APP)
     args = p.parse_args(argv)

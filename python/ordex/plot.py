@@ -27,6 +27,8 @@ gramian            ordex-gramian JSON (``eigenvalues``)            the eigenvalu
 gain_schedule      ordex-regulate --csv (t,K_1_1,...) or JSON      entries of K(t)
 matrix_series      other t,PREFIX_i_j CSV (P of --p-csv, W(t0,t))  entries over time
 discrete           ordex-discretize CSV (k,t_start,...) or JSON    step growth
+simulate           ordex-simulate JSON (``runs`` with peak_deviation)  per run: peak and final
+                                                                   deviation, linear gap
 sweep              ordex-sweep --csv (parameters,...,error)        a chart over two parameters
                                                                    (--columns picks the figure)
 response           t,<names> CSV (ordex-respond, inputs, runs)     the columns over time,
@@ -201,6 +203,9 @@ def kind_of(result):
         return "gramian"
     if "times" in r and isinstance(r.get("phi"), list) and ("gamma" in r or "gamma0" in r):
         return "discrete"
+    if isinstance(r.get("runs"), list) and r["runs"] and isinstance(r["runs"][0], dict) \
+            and "peak_deviation" in r["runs"][0]:
+        return "simulate"
     if isinstance(r.get("runs"), list) and "outputs" in r:
         return "response_summary"
     if isinstance(r.get("phi"), list) and "states" in r:
@@ -394,16 +399,20 @@ def plot_gain_schedule(result, entries=None):
     ax = ax[0, 0]
     if isinstance(r, Table):
         _matrix_lines(ax, r.values[:, 0], r.values[:, 1:], r.header[1:], "K", entries, r.source)
+        ylabel = "gain K(t)  (u = -K x)"
     else:
         gs = r["gain_schedule"]
+        # A regulator's K (inputs x states) or an estimator's L (states x outputs).
+        key = "K" if "K" in gs else "L"
         t = np.array(gs["times"], dtype=float)
-        K = np.array([[[_number(x) for x in row] for row in k] for k in gs["K"]], dtype=float)
+        K = np.array([[[_number(x) for x in row] for row in k] for k in gs[key]], dtype=float)
         m, n = K.shape[1], K.shape[2]
-        header = ["K_%d_%d" % (i + 1, j + 1) for i in range(m) for j in range(n)]
-        _matrix_lines(ax, t, K.reshape(len(t), m * n), header, "K", entries, _source(r),
-                      r.get("inputs"), r.get("states"))
+        header = ["%s_%d_%d" % (key, i + 1, j + 1) for i in range(m) for j in range(n)]
+        rows, cols = (r.get("inputs"), r.get("states")) if key == "K" else (r.get("states"), r.get("outputs"))
+        _matrix_lines(ax, t, K.reshape(len(t), m * n), header, key, entries, _source(r), rows, cols)
+        ylabel = "gain K(t)  (u = -K x)" if key == "K" else "filter gain L(t)  (x' = ... + L (y - C x))"
     ax.set_xlabel(_time_label(r))
-    ax.set_ylabel("gain K(t)  (u = -K x)")
+    ax.set_ylabel(ylabel)
     ax.set_title(_title(r, "gain schedule"))
     ax.legend(fontsize="small", ncol=2)
     ax.grid(True, alpha=0.3)
@@ -531,6 +540,37 @@ def plot_response_summary(result):
     return fig
 
 
+def plot_simulate(result):
+    """ordex-simulate's summary: per run, the peak deviation from the nominal (top) and the final
+    deviation beside the gap to the linear prediction (bottom, log scale); failed runs marked."""
+    r = load(result)
+    runs = r["runs"]
+    k = np.arange(1, len(runs) + 1)
+    ok = np.array([bool(x.get("ok", True)) for x in runs])
+    peak = np.array([_number(x.get("peak_deviation")) if x.get("ok", True) else np.nan for x in runs])
+    final = np.array([np.linalg.norm([_number(v) for v in x["dx_final"]]) if x.get("ok", True) else np.nan
+                      for x in runs])
+    gap = np.array([_number(x.get("linear_gap")) if x.get("ok", True) else np.nan for x in runs])
+    fig, axes = _new_figure(rows=2, size=(7.0, 6.0))
+    top, bottom = axes[0, 0], axes[1, 0]
+    top.plot(k, peak, "o", ms=3, label="peak |x - x_nom|")
+    if ok.any():
+        top.axhline(np.nanmean(peak), color="0.4", lw=1, label="mean")
+    if (~ok).any():
+        top.plot(k[~ok], np.zeros((~ok).sum()), "rx", label="failed run")
+    top.set_ylabel("peak deviation")
+    top.legend(fontsize="small")
+    top.grid(True, alpha=0.3)
+    bottom.semilogy(k, final, "o", ms=3, label="|x(t1) - x_nom(t1)|")
+    bottom.semilogy(k, gap, "s", ms=3, label="gap to the linear prediction")
+    bottom.set_xlabel("run")
+    bottom.set_ylabel("deviation at t1")
+    bottom.legend(fontsize="small")
+    bottom.grid(True, alpha=0.3)
+    top.set_title(_title(r, "%d nonlinear runs (%d failed)" % (len(runs), int((~ok).sum()))))
+    return fig
+
+
 def plot_sweep(result, figure=None):
     """An ordex-sweep table: over two parameters (the first two columns), a chart of FIGURE (a key
     figure column; default max_abs_multiplier for a Floquet sweep, else the first figure) with
@@ -594,6 +634,7 @@ def plot_sweep(result, figure=None):
 
 _PLOTTERS = {
     "sweep": plot_sweep,
+    "simulate": plot_simulate,
     "transition": plot_transition,
     "floquet": plot_floquet,
     "gramian_profile": plot_gramian_profile,

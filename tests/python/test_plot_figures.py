@@ -48,6 +48,10 @@ class PlotFigures(unittest.TestCase):
              "--csv", f"{d}/discrete.csv", "--json", f"{d}/discrete.json"])
         run(["ordex-sweep", "--model", mathieu, "--job", "floquet", "--grid", "a=0.2:2.2:6", "--grid", "q=0:1.5:4",
              "--csv", f"{d}/chart.csv"])
+        run(["ordex-simulate", "--model", os.path.join(MODELS, "chaser_two_body.toml"), "--runs", 5, "--seed", 2,
+             "--disperse", os.path.join(MODELS, "chaser_dispersions.toml"), "--json", f"{d}/simulate.json"])
+        run(["ordex-estimate", "--model", os.path.join(MODELS, "sled_depth.toml"), "--noise",
+             os.path.join(MODELS, "sled_depth_noise.toml"), "--samples", 21, "--json", f"{d}/estimate.json"])
 
     @classmethod
     def tearDownClass(cls):
@@ -130,6 +134,33 @@ class PlotFigures(unittest.TestCase):
         # (the free oscillator) sits on the unit circle.
         self.assertTrue(np.all(z >= 1 - 1e-9))
         np.testing.assert_allclose(z[0], 1.0, atol=1e-7)
+
+    def test_simulate_runs_are_the_summary_numbers(self):
+        with open(self.path("simulate.json")) as f:
+            data = json.load(f)
+        self.assertEqual(plot.kind_of(data), "simulate")
+        top, bottom = plot.plot(self.path("simulate.json")).axes[:2]
+        peak = top.get_lines()[0]
+        np.testing.assert_array_equal(peak.get_xdata(), np.arange(1, 6))
+        np.testing.assert_array_equal(peak.get_ydata(), [r["peak_deviation"] for r in data["runs"]])
+        final, gap = bottom.get_lines()[:2]
+        np.testing.assert_allclose(final.get_ydata(), [np.linalg.norm(r["dx_final"]) for r in data["runs"]],
+                                   rtol=1e-15)
+        np.testing.assert_array_equal(gap.get_ydata(), [r["linear_gap"] for r in data["runs"]])
+        # A peak deviation is at least the final one (the peak is over the run, the end included).
+        self.assertTrue(np.all(peak.get_ydata() >= final.get_ydata() * (1 - 1e-12)))
+
+    def test_filter_gain_schedule_from_the_estimator_json(self):
+        with open(self.path("estimate.json")) as f:
+            data = json.load(f)
+        self.assertEqual(plot.kind_of(data), "gain_schedule")
+        ax = plot.plot(self.path("estimate.json")).axes[0]
+        L = np.array(data["gain_schedule"]["L"])
+        lines = ax.get_lines()
+        self.assertEqual(len(lines), L.shape[1] * L.shape[2])
+        np.testing.assert_array_equal(lines[0].get_xdata(), data["gain_schedule"]["times"])
+        np.testing.assert_array_equal(lines[0].get_ydata(), L[:, 0, 0])
+        self.assertIn("L(t)", ax.get_ylabel())
 
     def test_gramian_profile_from_csv_and_json(self):
         header, values = read_csv(self.path("profile.csv"))

@@ -59,6 +59,17 @@ std::string input_error_of(F f) {
   return "";
 }
 
+/// A matrix as a JSON list of rows (for the Python reference scripts).
+inline nlohmann::json json_rows(const Eigen::MatrixXd& m) {
+  nlohmann::json j = nlohmann::json::array();
+  for (Eigen::Index i = 0; i < m.rows(); ++i) {
+    nlohmann::json r = nlohmann::json::array();
+    for (Eigen::Index k = 0; k < m.cols(); ++k) r.push_back(m(i, k));
+    j.push_back(r);
+  }
+  return j;
+}
+
 /// A JSON list of rows as a matrix.
 inline Eigen::MatrixXd matrix_from_json(const nlohmann::json& j) {
   Eigen::MatrixXd m(j.size(), j.empty() ? 0 : j[0].size());

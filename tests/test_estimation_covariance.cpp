@@ -17,16 +17,6 @@ using namespace ordex;
 
 namespace {
 
-nlohmann::json rows(const Eigen::MatrixXd& m) {
-  nlohmann::json j = nlohmann::json::array();
-  for (Eigen::Index i = 0; i < m.rows(); ++i) {
-    nlohmann::json r = nlohmann::json::array();
-    for (Eigen::Index k = 0; k < m.cols(); ++k) r.push_back(m(i, k));
-    j.push_back(r);
-  }
-  return j;
-}
-
 Sensor sensor(std::vector<std::string> outputs, std::vector<double> times, const Eigen::MatrixXd& R) {
   Sensor s;
   s.outputs = std::move(outputs);
@@ -146,14 +136,15 @@ struct TwoStateCase {
       const Sensor& s = schedule.sensors[up.sensor];
       Eigen::MatrixXd H(s.outputs.size(), 2);
       for (std::size_t i = 0; i < s.outputs.size(); ++i) H.row(i) = C.row(s.outputs[i] == "pos_meas" ? 0 : 1);
-      u.push_back({{"t", up.t}, {"H", rows(H)}, {"R", rows(s.Rn.at(up.t))}});
+      u.push_back({{"t", up.t}, {"H", ordex_test::json_rows(H)}, {"R", ordex_test::json_rows(s.Rn.at(up.t))}});
     }
     return u;
   }
 
   nlohmann::json reference_input() const {
-    return {{"A", rows(A)}, {"G", rows(G)}, {"Qn", rows(Qn)}, {"P0", rows(P0)}, {"t0", t0}, {"t1", t1},
-            {"updates", updates_json()}};
+    using ordex_test::json_rows;
+    return {{"A", json_rows(A)}, {"G", json_rows(G)}, {"Qn", json_rows(Qn)}, {"P0", json_rows(P0)},
+            {"t0", t0}, {"t1", t1}, {"updates", updates_json()}};
   }
 };
 
@@ -209,7 +200,7 @@ TEST(CovarianceAnalysis, MonteCarloErrorCovarianceMatchesP) {
     const Sensor& s = c.schedule.sensors[ups[k].sensor];
     Eigen::MatrixXd K(2, s.outputs.size());
     for (std::size_t i = 0; i < s.outputs.size(); ++i) K.col(i) = rep.gains[k].col(s.outputs[i] == "pos_meas" ? 0 : 1);
-    gains.push_back(rows(K));
+    gains.push_back(ordex_test::json_rows(K));
   }
   in["monte_carlo"] = {{"runs", 4000}, {"seed", 20261202}, {"gains", gains}};
   auto py = ordex_test::run_python("estimation_recursion.py", "'" + in.dump() + "'");

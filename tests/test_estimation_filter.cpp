@@ -103,15 +103,7 @@ TEST(KalmanBucy, ConstantSystemTendsToTheAlgebraicSolutionOfScipy) {
   // scipy.linalg.solve_continuous_are(A', C', G Qn G', Rn): the filter's algebraic equation is
   // the regulator's for the dual system (riccati_care.py solves A'X + XA - XBR^-1B'X + Q = 0).
   nlohmann::json in;
-  auto rows = [](const Eigen::MatrixXd& m) {
-    nlohmann::json j = nlohmann::json::array();
-    for (Eigen::Index i = 0; i < m.rows(); ++i) {
-      nlohmann::json r = nlohmann::json::array();
-      for (Eigen::Index k = 0; k < m.cols(); ++k) r.push_back(m(i, k));
-      j.push_back(r);
-    }
-    return j;
-  };
+  const auto rows = ordex_test::json_rows;
   in["A"] = rows(A.transpose());
   in["B"] = rows(C.transpose());
   in["Q"] = rows(G * Qn * G.transpose());

@@ -18,16 +18,6 @@ using namespace ordex;
 
 namespace {
 
-nlohmann::json rows(const Eigen::MatrixXd& m) {
-  nlohmann::json j = nlohmann::json::array();
-  for (Eigen::Index i = 0; i < m.rows(); ++i) {
-    nlohmann::json r = nlohmann::json::array();
-    for (Eigen::Index k = 0; k < m.cols(); ++k) r.push_back(m(i, k));
-    j.push_back(r);
-  }
-  return j;
-}
-
 NoiseModel noise_of(const Eigen::MatrixXd& G, const Eigen::MatrixXd& Qn, const Eigen::MatrixXd& Rn) {
   NoiseModel noise;
   noise.G = WeightMatrix::constant(G, "G");
@@ -57,10 +47,10 @@ TEST(PeriodicKalmanBucy, ConstantSystemDeclaredPeriodicMatchesScipy) {
   // scipy.linalg.solve_continuous_are(A', C', G Qn G', Rn): the filter's algebraic equation is
   // the regulator's of the dual system.
   nlohmann::json in;
-  in["A"] = rows(A.transpose());
-  in["B"] = rows(C.transpose());
-  in["Q"] = rows(G * Qn * G.transpose());
-  in["R"] = rows(Rn);
+  in["A"] = ordex_test::json_rows(A.transpose());
+  in["B"] = ordex_test::json_rows(C.transpose());
+  in["Q"] = ordex_test::json_rows(G * Qn * G.transpose());
+  in["R"] = ordex_test::json_rows(Rn);
   auto py = ordex_test::run_python("riccati_care.py", "'" + in.dump() + "'");
   ASSERT_EQ(py.exit_code, 0) << py.err;
   const Eigen::MatrixXd P = ordex_test::matrix_from_json(nlohmann::json::parse(py.out)["P"]);

@@ -9,8 +9,8 @@
 #include "io/errors.hpp"
 #include "model/time_grid.hpp"
 #include "propagation/propagator.hpp"
-#include "riccati/lqr_coefficients.hpp"
 #include "riccati/periodic_subspace.hpp"
+#include "riccati/riccati_routes.hpp"
 
 namespace ordex {
 
@@ -126,19 +126,10 @@ PeriodicSteadyState periodic_steady_state(const System& sys, const Weights& w, d
   }
 
   // 1. The Hamiltonian's monodromy and its stable subspace.
-  auto coeff = std::make_shared<LqrCoefficients>(sys, w);
-  Generator g;
-  g.dim = 2 * n;
-  g.eval = [coeff](double t, MatrixRef out) {
-    coeff->at(t);
-    coeff->hamiltonian(out);
-  };
-  g.breakpoints = sys.breakpoints_between(t0, t1);
-  g.label = "periodic Riccati Hamiltonian";
   PropagationOptions engine = riccati.propagation;
   engine.progress = {};
   engine.use_period = false;  // one period only
-  Propagator prop(g, engine);
+  Propagator prop(riccati_detail::hamiltonian_generator(sys, w, t0, t1, "periodic Riccati Hamiltonian"), engine);
   // Over a long period the monodromy can overflow (its entries grow like exp(2 |lambda| T)); the
   // passes from P = 0 below still reach the solution then, and the note says why they were used.
   Eigen::MatrixXd M;

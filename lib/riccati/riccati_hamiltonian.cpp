@@ -14,22 +14,25 @@
 namespace ordex {
 namespace riccati_detail {
 
-void solve_by_hamiltonian(const System& sys, const Weights& w, const RiccatiOptions& options, RiccatiSolution& sol) {
-  const int n = sys.states();
+Generator hamiltonian_generator(const System& sys, const Weights& w, double t0, double t1, const std::string& label) {
   auto coeff = std::make_shared<LqrCoefficients>(sys, w);
-  const double t0 = sol.nodes.front(), t1 = sol.nodes.back();
-
   Generator g;
-  g.dim = 2 * n;
+  g.dim = 2 * sys.states();
   g.eval = [coeff](double t, MatrixRef out) {
     coeff->at(t);
     coeff->hamiltonian(out);
   };
   g.breakpoints = sys.breakpoints_between(t0, t1);
-  g.label = "Riccati Hamiltonian";
+  g.label = label;
+  return g;
+}
+
+void solve_by_hamiltonian(const System& sys, const Weights& w, const RiccatiOptions& options, RiccatiSolution& sol) {
+  const int n = sys.states();
+  const double t0 = sol.nodes.front(), t1 = sol.nodes.back();
   PropagationOptions engine = options.propagation;
   engine.progress = {};  // progress is reported per interval below
-  Propagator prop(g, engine);
+  Propagator prop(hamiltonian_generator(sys, w, t0, t1, "Riccati Hamiltonian"), engine);
 
   const std::size_t count = sol.nodes.size();
   std::vector<double> backward(sol.nodes.rbegin(), sol.nodes.rend());

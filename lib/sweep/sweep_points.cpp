@@ -79,7 +79,9 @@ std::vector<SampleDistribution> read_sample_plan(const std::string& path) {
   for (const auto& kv : root) order.push_back({static_cast<int>(kv.first.source().begin.line), std::string(kv.first.str())});
   std::sort(order.begin(), order.end());
   std::vector<SampleDistribution> plan;
-  for (const auto& [line, name] : order) {
+  for (const auto& entry : order) {
+    // A plain variable, not a structured binding: C++17 lambdas cannot capture those (clang).
+    const std::string& name = entry.second;
     const toml::table* t = root.get(name)->as_table();
     if (!t) throw InputError(path + ": " + name + ": expected a table [" + name + "] with distribution = \"normal\" or \"uniform\"");
     auto number = [&](const char* key) {

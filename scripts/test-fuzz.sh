@@ -13,6 +13,7 @@ cmake -S tests/fuzz -B build-fuzz -DCMAKE_BUILD_TYPE=Debug -DCMAKE_CXX_COMPILER=
 cmake --build build-fuzz -j2
 mkdir -p build-fuzz/artifacts
 export ASAN_OPTIONS="halt_on_error=1:detect_leaks=1"
+export LSAN_OPTIONS="suppressions=$PWD/tests/lsan.supp:print_suppressions=0"  # CLN/GiNaC load-time tables
 export UBSAN_OPTIONS="halt_on_error=1:print_stacktrace=1"
 status=0
 for seeds in tests/fuzz/corpus/*/; do

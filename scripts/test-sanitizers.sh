@@ -14,6 +14,8 @@ flags="-O1 -g -fno-omit-frame-pointer -fsanitize=address,undefined -fno-sanitize
 cmake -S . -B build-asan -DCMAKE_BUILD_TYPE=Debug -DORDEX_TESTS=ON -DORDEX_NATIVE=OFF -DORDEX_PYTHON=OFF -DORDEX_MPI=OFF \
       -DCMAKE_CXX_FLAGS="$flags" -DCMAKE_EXE_LINKER_FLAGS="-fsanitize=address,undefined" \
       -DCMAKE_SHARED_LINKER_FLAGS="-fsanitize=address,undefined" "$@" >/dev/null
+# The suppressions hold for the test discovery the build runs too.
+export LSAN_OPTIONS="suppressions=$PWD/tests/lsan.supp:print_suppressions=0"
 cmake --build build-asan -j2
 export ASAN_OPTIONS="halt_on_error=1:detect_leaks=1:detect_stack_use_after_return=0:strict_string_checks=1"
 export UBSAN_OPTIONS="halt_on_error=1:print_stacktrace=1"

@@ -94,17 +94,24 @@ class ModelReader {
   std::vector<double> parameter_values_;
 };
 
-void ModelReader::parse_file() {
-  // Bounded read: a folder, a device or a huge file is refused with the file named.
-  const std::string text = read_text_file(path_, "model file", input_limits().max_toml_bytes);
+namespace {
+
+/// The model file at PATH as TOML; a bounded read (a folder, a device or a huge file is refused
+/// with the file named) and InputError "PATH:LINE:COLUMN: TOML syntax error: ..." otherwise.
+toml::table parse_model_toml(const std::string& path) {
+  const std::string text = read_text_file(path, "model file", input_limits().max_toml_bytes);
   try {
-    root_ = toml::parse(text, path_);
+    return toml::parse(text, path);
   } catch (const toml::parse_error& e) {
     const auto& b = e.source().begin;
-    throw InputError(path_ + ":" + std::to_string(b.line) + ":" + std::to_string(b.column) +
+    throw InputError(path + ":" + std::to_string(b.line) + ":" + std::to_string(b.column) +
                      ": TOML syntax error: " + std::string(e.description()));
   }
 }
+
+}  // namespace
+
+void ModelReader::parse_file() { root_ = parse_model_toml(path_); }
 
 void ModelReader::check_keys(const toml::table& t, const std::string& prefix,
                              const std::vector<std::string>& allowed) {
@@ -523,13 +530,8 @@ ModelSpec read_model_parts(const std::string& path, const ParameterOverrides& ov
 }
 
 bool model_file_has_section(const std::string& path, const std::string& section) {
-  const std::string text = read_text_file(path, "model file", input_limits().max_toml_bytes);
-  try {
-    const toml::table root = toml::parse(text, path);
-    return root.get(section) != nullptr;
-  } catch (const toml::parse_error&) {
-    return false;  // the loader that reads it reports the syntax error with line and column
-  }
+  // A file that is not valid TOML gets its syntax error here, whatever the caller would do next.
+  return parse_model_toml(path).get(section) != nullptr;
 }
 
 std::pair<std::string, double> parse_override(const std::string& text) {

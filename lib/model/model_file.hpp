@@ -27,8 +27,8 @@ struct ModelSpec;  // model/expression_system.hpp
 ModelSpec read_model_parts(const std::string& path, const ParameterOverrides& overrides,
                            const std::vector<std::string>& own_sections);
 
-/// True when PATH is a TOML file with a top-level SECTION (false for a syntax error, which the
-/// loader reports). Throws InputError when PATH cannot be read.
+/// True when PATH is a TOML file with a top-level SECTION. Throws InputError when PATH cannot be
+/// read or is not valid TOML ("PATH:LINE:COLUMN: TOML syntax error: ...", as the loader says).
 bool model_file_has_section(const std::string& path, const std::string& section);
 
 /// Parses "NAME=VALUE" (VALUE a number or an expression of numbers and pi).

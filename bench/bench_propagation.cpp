@@ -71,6 +71,7 @@ const char* const kApp = "ordex_bench_propagation";
 const double kPi = 3.14159265358979323846;
 /// Where the tables go: standard output, or standard error when --json - takes standard output.
 FILE* g_out = stdout;
+int g_threads = 1;  // --threads, for every engine run
 
 // ---------------------------------------------------------------------------------------------
 // Options and report
@@ -86,7 +87,7 @@ struct Options {
   std::string problems = "orbit,eccentric,mathieu,random,bank,chain";
   /// --methods: comma-separated subset of magnus4, magnus6, adams, bdf, rkf78 (for profiling one
   /// method); the baseline rkf78 always runs, since speed-ups are measured against it. Default all.
-  std::string methods = "magnus4,magnus6,adams,bdf,rkf78";
+  std::string methods = "magnus4,magnus6,adams,bdf,rk8,rkf78";
   /// --target: the achieved relative error that counts as matched accuracy; default 1e-10.
   double target = 1e-10;
   /// --min-time: each timing repeats a run until this many seconds have passed; default 0.3
@@ -96,11 +97,16 @@ struct Options {
   int repeats = 3;
   /// --json: write every run (including the tolerance scans) to PATH; default none.
   std::string json;
+  /// --threads: PropagationOptions::threads of the engine's runs (pieces of the window on that
+  /// many threads); default 1. The baseline always runs on one thread. With more than one,
+  /// read the wall times: the CPU column counts the calling thread only.
+  int threads = 1;
 
   void validate() const {
     if (!(target > 0 && target < 1)) throw InputError("--target: must lie in (0, 1)");
     if (!(min_time > 0 && min_time <= 60)) throw InputError("--min-time: must lie in (0, 60] seconds");
     if (repeats < 1 || repeats > 100) throw InputError("--repeats: must lie in [1, 100]");
+    if (threads < 1 || threads > 64) throw InputError("--threads: must lie in [1, 64]");
     std::stringstream in(problems);
     std::string p;
     int count = 0;
@@ -112,8 +118,8 @@ struct Options {
     if (count == 0) throw InputError("--problems: empty list");
     std::stringstream ms(methods);
     while (std::getline(ms, p, ','))
-      if (p != "magnus4" && p != "magnus6" && p != "adams" && p != "bdf" && p != "rkf78")
-        throw InputError("--methods: unknown method '" + p + "' (choose magnus4, magnus6, adams, bdf, rkf78)");
+      if (p != "auto" && p != "magnus4" && p != "magnus6" && p != "adams" && p != "bdf" && p != "rk8" && p != "rkf78")
+        throw InputError("--methods: unknown method '" + p + "' (choose magnus4, magnus6, adams, bdf, rk8, rkf78)");
   }
   bool wants(const std::string& p) const { return listed(problems, p); }
   bool runs(const std::string& m) const { return m == "rkf78" || listed(methods, m); }
@@ -320,7 +326,7 @@ struct Result {
   long steps = 0, evaluations = 0;
 };
 
-const std::vector<std::string> kMethods = {"magnus4", "magnus6", "adams", "bdf", "rkf78"};
+const std::vector<std::string> kMethods = {"auto", "magnus4", "magnus6", "adams", "bdf", "rk8", "rkf78"};
 const char* const kBaseline = "rkf78";
 
 /// The baseline: Boost.Odeint, controlled RKF78 on vec(Phi), the rhs one Eigen product.
@@ -358,7 +364,8 @@ Result engine_transition(const System& sys, const std::string& method, double t0
   o.rtol = rtol;
   o.atol = atol;
   o.use_period = false;  // one long run, as the baseline must do (no Floquet shortcut)
-  ordex::Propagator prop(ordex::state_generator(sys), o);
+  o.threads = g_threads;
+  ordex::Propagator prop(ordex::state_generator(sys, t0, t1), o);  // as the apps build it (auto probes the window)
   Result r;
   r.phi = prop.transition(t0, t1);
   r.steps = prop.stats().steps;
@@ -749,7 +756,9 @@ int run(int argc, char** argv) {
       ("problems", po::value(&o.problems)->value_name("LIST")->default_value(o.problems),
        "comma-separated subset of orbit, eccentric, mathieu, random, bank, chain")
       ("methods", po::value(&o.methods)->value_name("LIST")->default_value(o.methods),
-       "comma-separated subset of magnus4, magnus6, adams, bdf, rkf78 (rkf78 always runs)")
+       "comma-separated subset of magnus4, magnus6, adams, bdf, rk8, rkf78 (rkf78 always runs)")
+      ("threads", po::value(&o.threads)->value_name("N")->default_value(o.threads),
+       "threads of each engine run (the window in N pieces); the baseline uses one")
       ("target", po::value(&o.target)->value_name("E")->default_value(o.target),
        "achieved relative error that counts as matched accuracy")
       ("min-time", po::value(&o.min_time)->value_name("S"),
@@ -775,6 +784,7 @@ int run(int argc, char** argv) {
     if (!vm.count("repeats")) o.repeats = 1;
   }
   o.validate();
+  g_threads = o.threads;
   if (o.json == "-") g_out = stderr;
 
   std::vector<ProblemReport> reports;

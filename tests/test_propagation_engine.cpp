@@ -17,7 +17,7 @@ using namespace ordex;
 
 namespace {
 
-const Method kAllMethods[] = {Method::Magnus4, Method::Magnus6, Method::Adams, Method::Bdf};
+const Method kAllMethods[] = {Method::Magnus4, Method::Magnus6, Method::Adams, Method::Bdf, Method::Rk8};
 
 PropagationOptions opts(Method m, double rtol = 1e-10, double atol = 1e-12) {
   PropagationOptions o;
@@ -119,11 +119,12 @@ TEST(PropagationEngine, AiryEquationMatchesBoostMath) {
 
 TEST(PropagationEngine, MagnusObservedOrder) {
   // Fixed steps (tolerance loose, step pinned by initial and max step): on Airy's equation the
-  // error must fall by about 2^p when h halves (p = 4 and 6).
+  // error must fall by about 2^p when h halves (p = 4 and 6 for Magnus, 8 for the Runge-Kutta).
   FunctionSystem s = airy_system();
   const double t0 = 0.0, t1 = 2.0;
   Eigen::MatrixXd ref = airy_phi(t1, t0);
-  for (auto [m, p, hs] : {std::tuple{Method::Magnus4, 4, 0.2}, std::tuple{Method::Magnus6, 6, 0.4}}) {
+  for (auto [m, p, hs] : {std::tuple{Method::Magnus4, 4, 0.2}, std::tuple{Method::Magnus6, 6, 0.4},
+                         std::tuple{Method::Rk8, 8, 1.0}}) {
     std::vector<double> errors;
     for (double h : {hs, hs / 2, hs / 4}) {
       PropagationOptions o = opts(m, 0.1, 1e6);
@@ -368,5 +369,51 @@ TEST(PropagationEngine, PeriodShortcutMatchesDirectPropagation) {
     // Backward over the same window inverts it.
     Eigen::MatrixXd back = p.transition(t1, t0);
     EXPECT_LT(max_abs(back * phi - Eigen::MatrixXd::Identity(2, 2)), 1e-5) << method_name(m);
+  }
+}
+
+TEST(PropagationEngine, WindowPiecesOnThreadsMatchBoostAndBreakpoints) {
+  // PropagationOptions::threads splits one window into pieces integrated at once and multiplied.
+  // The product must still match the outside reference (Boost.Math's Airy functions, forward and
+  // backward), carry an honest error estimate, land on breakpoints that fall in any piece, and
+  // fail with the earliest piece's message.
+  FunctionSystem airy = airy_system();
+  airy.set_concurrent_callbacks(true);
+  for (Method m : {Method::Magnus6, Method::Rk8, Method::Adams}) {
+    for (int threads : {2, 3}) {
+      for (auto [t0, t1] : {std::pair{-6.0, 1.5}, std::pair{2.0, -3.0}}) {
+        PropagationOptions o = opts(m);
+        o.threads = threads;
+        Propagator p(state_generator(airy), o);
+        const Eigen::MatrixXd ref = airy_phi(t1, t0);
+        const double err = max_abs(p.transition(t0, t1) - ref);
+        EXPECT_LT(err / max_abs(ref), 1e-7) << method_name(m) << " threads " << threads;
+        EXPECT_LE(err, 10 * p.stats().error_estimate + 1e-14) << method_name(m) << " threads " << threads;
+        EXPECT_GE(p.stats().steps, threads) << "every piece takes a step";
+      }
+    }
+  }
+  Eigen::MatrixXd a1(2, 2), a2(2, 2);
+  a1 << 0, 1, -4, -0.1;
+  a2 << 0.2, 1, -1, 0;
+  FunctionSystem jump({"x", "v"});
+  jump.set_A([=](double t, MatrixRef mat) { mat = t < 2.5 ? a1 : a2; });
+  jump.set_breakpoints({2.5});  // inside the second of two pieces of [0, 4]
+  jump.set_concurrent_callbacks(true);
+  PropagationOptions o = opts(Method::Rk8);
+  o.threads = 2;
+  Propagator p(state_generator(jump), o);
+  EXPECT_LT(max_abs(p.transition(0, 4.0) - (a2 * 1.5).exp() * (a1 * 2.5).exp()), 1e-8);
+
+  FunctionSystem bad({"x"});
+  bad.set_A([](double t, MatrixRef mat) { mat(0, 0) = t > 3.0 ? NAN : 0.1; });
+  bad.set_concurrent_callbacks(true);
+  o.threads = 2;
+  Propagator q(state_generator(bad), o);
+  try {
+    q.transition(0, 4.0);
+    FAIL() << "a generator that is not finite beyond t = 3 must fail";
+  } catch (const NumericalError& e) {
+    EXPECT_NE(std::string(e.what()).find("not finite at t = 3"), std::string::npos) << e.what();
   }
 }

@@ -51,7 +51,7 @@ TEST(PropagationRobustness, StiffModulatedOscillatorSucceedsOnEveryMethod) {
   ASSERT_TRUE(ref.allFinite());
   ASSERT_GT(ref.cwiseAbs().maxCoeff(), 0.0);
   FunctionSystem s = stiff_oscillator();
-  for (Method m : {Method::Auto, Method::Magnus6, Method::Magnus4, Method::Adams, Method::Bdf}) {
+  for (Method m : {Method::Auto, Method::Magnus6, Method::Magnus4, Method::Adams, Method::Bdf, Method::Rk8}) {
     // Default tolerances (rtol 1e-8, atol 1e-10): Phi(2, 0) is about 1e-53, so the absolute
     // tolerance governs; the run must simply succeed and stay within it.
     PropagationOptions o;
@@ -84,7 +84,7 @@ TEST(PropagationRobustness, WholeWindowFirstStepIsRetriedShorter) {
   // rejected and the run succeed.
   const Eigen::Matrix2d ref = stiff_reference();
   FunctionSystem s = stiff_oscillator();
-  for (Method m : {Method::Magnus4, Method::Magnus6}) {
+  for (Method m : {Method::Magnus4, Method::Magnus6, Method::Rk8}) {
     PropagationOptions o;
     o.method = m;
     o.initial_step = 2.0;

@@ -102,7 +102,7 @@ void add_common_options(po::options_description& desc, CommonOptions& c,
        "start of the window (a number or expression such as 2*pi); default from [window]")
       ("to", po::value(&c.to)->value_name("T1"), "end of the window; default from [window]")
       ("method", po::value(&c.method)->value_name("NAME")->default_value("auto"),
-       "auto, magnus4, magnus6, adams or bdf (README: Choosing a method)")
+       "auto, magnus4, magnus6, adams, bdf or rk8 (README: Choosing a method)")
       ("rtol", po::value(&c.rtol)->value_name("R")->default_value(1e-8, "1e-8"),
        "relative tolerance of the propagation")
       ("atol", po::value(&c.atol)->value_name("A")->default_value(1e-10, "1e-10"),

@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <exception>
+#include <memory>
 
 namespace ordex {
 
@@ -14,6 +15,16 @@ Generator state_generator(const System& sys) {
   g.period = sys.info().period;
   g.label = "A(t)";
   g.diagnose = [s](double t, double direction) { return s->diagnose_entries(t, direction); };
+  if (sys.clones_may_run_concurrently()) {
+    g.fork = [s]() {
+      std::shared_ptr<const System> own(s->clone());  // kept alive by the functions below
+      Generator h;
+      h.dim = own->states();
+      h.eval = [own](double t, MatrixRef out) { own->A(t, out); };
+      h.diagnose = [own](double t, double direction) { return own->diagnose_entries(t, direction); };
+      return h;
+    };
+  }
   return g;
 }
 
@@ -24,6 +35,7 @@ Generator state_generator(const System& sys, double t0, double t1) {
 }
 
 void add_switching_times(Generator& g, const System& sys, double t0, double t1) {
+  g.window = std::pair{t0, t1};
   const std::vector<double> found = sys.switching_times(std::min(t0, t1), std::max(t0, t1), &g.notes);
   if (found.empty()) return;
   g.breakpoints.insert(g.breakpoints.end(), found.begin(), found.end());

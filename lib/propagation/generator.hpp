@@ -6,6 +6,7 @@
 #include <functional>
 #include <optional>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "model/system.hpp"
@@ -18,6 +19,9 @@ struct Generator {
   /// Ascending; steps land on them. Declared breakpoints, a linear table's sample times and the
   /// switching times found in the model's expressions over the window the generator was built for.
   std::vector<double> breakpoints;
+  /// The window [from, to] the generator was built for (state_generator with a window,
+  /// add_switching_times); Method::Auto probes G there. Empty when not known.
+  std::optional<std::pair<double, double>> window;
   /// G(t + period) = G(t) for all t (breakpoints repeat too); empty when not periodic.
   std::optional<double> period;
   std::string label = "A(t)";                             ///< names G in messages
@@ -26,6 +30,10 @@ struct Generator {
   std::function<std::string(double t, double direction)> diagnose;
   /// Entries whose switching times could not be located (one line each, for the report).
   std::vector<std::string> notes;
+  /// Returns a generator whose eval and diagnose work on their own copy of the model, so that
+  /// it may run on another thread at the same time as this one (the caller copies the other
+  /// fields). Empty when the model cannot be copied so; the engine then stays on one thread.
+  std::function<Generator()> fork;
 };
 
 /// G(t) = A(t) of SYS (SYS must outlive the generator). Breakpoints are the model's.

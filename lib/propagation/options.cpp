@@ -13,15 +13,16 @@ std::string method_name(Method m) {
     case Method::Magnus6: return "magnus6";
     case Method::Adams: return "adams";
     case Method::Bdf: return "bdf";
+    case Method::Rk8: return "rk8";
   }
   return "auto";
 }
 
 Method parse_method(const std::string& name) {
-  for (Method m : {Method::Auto, Method::Magnus4, Method::Magnus6, Method::Adams, Method::Bdf})
+  for (Method m : {Method::Auto, Method::Magnus4, Method::Magnus6, Method::Adams, Method::Bdf, Method::Rk8})
     if (name == method_name(m)) return m;
   throw InputError("PropagationOptions::method: unknown method '" + name +
-                   "' (choose auto, magnus4, magnus6, adams or bdf)");
+                   "' (choose auto, magnus4, magnus6, adams, bdf or rk8)");
 }
 
 void PropagationOptions::validate() const {
@@ -34,6 +35,8 @@ void PropagationOptions::validate() const {
     throw InputError(field + "initial_step = " + format_number(initial_step) + " must be >= 0");
   if (!(max_step >= 0 && std::isfinite(max_step)))
     throw InputError(field + "max_step = " + format_number(max_step) + " must be >= 0");
+  if (threads < 1 || threads > 64)
+    throw InputError(field + "threads = " + std::to_string(threads) + " is outside [1, 64]");
   if (max_steps < 1)
     throw InputError(field + "max_steps = " + std::to_string(max_steps) + " must be at least 1");
 }

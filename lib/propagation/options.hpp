@@ -13,10 +13,11 @@ enum class Method {
   Magnus4,  ///< Magnus order 4, two Gauss-Legendre nodes, adaptive by step doubling
   Magnus6,  ///< Magnus order 6, three Gauss-Legendre nodes, adaptive by step doubling
   Adams,    ///< CVODE Adams-Moulton with fixed-point iteration on vec(Phi) (non-stiff)
-  Bdf       ///< CVODE BDF with Newton; linear solves use the blocks I - gamma A(t) (stiff)
+  Bdf,      ///< CVODE BDF with Newton; linear solves use the blocks I - gamma A(t) (stiff)
+  Rk8       ///< explicit Runge-Kutta of order 8 (Dormand-Prince 8(5,3) estimators) on the step map
 };
 
-/// "auto", "magnus4", "magnus6", "adams", "bdf".
+/// "auto", "magnus4", "magnus6", "adams", "bdf", "rk8".
 std::string method_name(Method m);
 /// Inverse of method_name; throws InputError "PropagationOptions::method: unknown method 'x'
 /// (choose ...)".
@@ -39,6 +40,12 @@ struct PropagationOptions {
   /// Phi(t0 + r, t0) M^k from the monodromy matrix M = Phi(t0 + T, t0) (Floquet): one period is
   /// integrated instead of k, and the result is more accurate too. Default true.
   bool use_period = true;
+  /// Threads for one window, default 1. With N >= 2 (and a model that can be copied for other
+  /// threads), transition(t0, t1) integrates N equal pieces of the window at once, each from
+  /// the identity, and multiplies them (Phi(t2, t0) = Phi(t2, t1) Phi(t1, t0) exactly; the error
+  /// matrices are carried through the product). Modules that already run windows on threads
+  /// leave it at 1. At most 64.
+  int threads = 1;
   /// Called now and then with the fraction of the window done, for progress reports; may be
   /// empty (default).
   std::function<void(double fraction)> progress;

@@ -2,17 +2,41 @@
 
 #include <algorithm>
 #include <cmath>
+#include <exception>
+#include <thread>
+
+#include <Eigen/Eigenvalues>
 
 #include "io/errors.hpp"
 #include "propagation/stepper.hpp"
 
 namespace ordex {
 
-Method resolve_auto_method(const Generator&, double, double) {
-  // Magnus order 6 is the default: it keeps the exponential structure of Phi (exact for
-  // commuting and constant generators, stable for stiff linear ones since each step is an
-  // exact exponential), and takes long steps on smooth A(t). See README "Choosing a method".
-  return Method::Magnus6;
+Method resolve_auto_method(const Generator& g, double t0, double t1) {
+  // The explicit order-8 Runge-Kutta is the fastest method at matched accuracy on every
+  // non-stiff bench case (docs/performance.md, issue 9), oscillatory ones included. An explicit
+  // method pays for stiffness with steps bounded by its stability region (|h lambda| below
+  // about 5 on the negative real axis), so a plant whose fastest decay rate times the window
+  // would force more than about a thousand such steps goes to Magnus order 6, whose steps are
+  // exact exponentials and stay stable at any length. The rate is read from G's eigenvalues
+  // at the window's ends and middle; a generator that is not finite there gets Magnus order 6
+  // (its failure messages name the entry), an empty window the Runge-Kutta.
+  if (!(t1 != t0) || !std::isfinite(t0) || !std::isfinite(t1)) return Method::Rk8;
+  if (g.dim > 400) return Method::Rk8;  // the probe would cost more than it can save
+  Eigen::MatrixXd G(g.dim, g.dim);
+  double fastest_decay = 0;
+  try {
+    for (double f : {0.0, 0.5, 1.0}) {
+      G.setZero();
+      g.eval(t0 + f * (t1 - t0), G);
+      if (!G.allFinite()) return Method::Magnus6;
+      const Eigen::VectorXcd lambda = Eigen::EigenSolver<Eigen::MatrixXd>(G, false).eigenvalues();
+      for (Eigen::Index k = 0; k < lambda.size(); ++k) fastest_decay = std::max(fastest_decay, -lambda(k).real());
+    }
+  } catch (const std::exception&) {
+    return Method::Magnus6;
+  }
+  return fastest_decay * std::abs(t1 - t0) > 5000.0 ? Method::Magnus6 : Method::Rk8;
 }
 
 Propagator::Propagator(Generator generator, PropagationOptions options)
@@ -24,13 +48,20 @@ Propagator::Propagator(Generator generator, PropagationOptions options)
     if (!std::isfinite(bp)) throw InputError(generator_.label + ": a breakpoint is not finite");
   std::sort(generator_.breakpoints.begin(), generator_.breakpoints.end());
   Method m = options_.method;
-  if (m == Method::Auto) m = resolve_auto_method(generator_, 0, 0);
+  if (m == Method::Auto) {
+    // Probed over the window the generator was built for; without one, the first period or,
+    // failing that, no probe.
+    if (generator_.window) m = resolve_auto_method(generator_, generator_.window->first, generator_.window->second);
+    else if (generator_.period) m = resolve_auto_method(generator_, 0, *generator_.period);
+    else m = Method::Rk8;
+  }
   stats_.method = m;
   switch (m) {
     case Method::Magnus4: stepper_ = make_magnus_stepper(generator_, options_, 4); break;
     case Method::Magnus6: stepper_ = make_magnus_stepper(generator_, options_, 6); break;
     case Method::Adams: stepper_ = make_cvode_stepper(generator_, options_, false); break;
     case Method::Bdf: stepper_ = make_cvode_stepper(generator_, options_, true); break;
+    case Method::Rk8: stepper_ = make_runge_kutta8_stepper(generator_, options_); break;
     case Method::Auto: break;
   }
 }
@@ -64,6 +95,72 @@ void Propagator::advance(double a, double b, Eigen::MatrixXd& X, Eigen::MatrixXd
   for (double s : stops) {
     stepper_->advance(t, s, X, error, stats_, progress);
     t = s;
+  }
+}
+
+void Propagator::advance_from_identity(double a, double b, Eigen::MatrixXd& X, Eigen::MatrixXd& error) {
+  const int n = generator_.dim;
+  X.setIdentity(n, n);
+  error.setZero(n, n);
+  const int pieces = options_.threads;
+  if (pieces < 2 || !generator_.fork || a == b) {
+    advance(a, b, X, error);
+    return;
+  }
+  while (static_cast<int>(helpers_.size()) < pieces - 1) {
+    Generator g = generator_.fork();
+    Generator h = generator_;
+    h.eval = std::move(g.eval);
+    h.diagnose = std::move(g.diagnose);
+    h.fork = nullptr;
+    PropagationOptions o = options_;
+    o.threads = 1;
+    o.progress = nullptr;
+    helpers_.emplace_back(std::move(h), o);
+  }
+  std::vector<double> cut(pieces + 1);
+  for (int k = 0; k <= pieces; ++k) cut[k] = a + (b - a) * static_cast<double>(k) / pieces;
+  cut[pieces] = b;
+  std::vector<Eigen::MatrixXd> xs(pieces, Eigen::MatrixXd::Identity(n, n));
+  std::vector<Eigen::MatrixXd> es(pieces, Eigen::MatrixXd::Zero(n, n));
+  std::vector<std::exception_ptr> failed(pieces);
+  std::vector<PropagationStats> before(pieces - 1);
+  std::vector<std::thread> workers;
+  for (int k = 1; k < pieces; ++k) {
+    Propagator& helper = helpers_[k - 1];
+    before[k - 1] = helper.stats_;
+    workers.emplace_back([&, k] {
+      try {
+        helper.advance(cut[k], cut[k + 1], xs[k], es[k]);
+      } catch (...) {
+        failed[k] = std::current_exception();
+      }
+    });
+  }
+  try {
+    advance(cut[0], cut[1], xs[0], es[0]);  // the first piece here: its progress stands for all
+  } catch (...) {
+    failed[0] = std::current_exception();
+  }
+  for (auto& w : workers) w.join();
+  for (int k = 1; k < pieces; ++k) {
+    const PropagationStats& now = helpers_[k - 1].stats_;
+    stats_.steps += now.steps - before[k - 1].steps;
+    stats_.rejected_steps += now.rejected_steps - before[k - 1].rejected_steps;
+    stats_.evaluations += now.evaluations - before[k - 1].evaluations;
+  }
+  for (auto& f : failed)  // the earliest piece's failure is the one the user would meet first
+    if (f) std::rethrow_exception(f);
+  // (X_k + E_k) (X + E) ~ X_k X + (X_k E + E_k X): the first-order error of the product.
+  X.swap(xs[0]);
+  error.swap(es[0]);
+  Eigen::MatrixXd t1, t2;
+  for (int k = 1; k < pieces; ++k) {
+    t1.noalias() = xs[k] * error;
+    t1.noalias() += es[k] * X;
+    t2.noalias() = xs[k] * X;
+    error.swap(t1);
+    X.swap(t2);
   }
 }
 
@@ -116,7 +213,7 @@ Eigen::MatrixXd Propagator::transition(double t0, double t1) {
                            format_number(t1) + " spans " + format_number(periods) +
                            " periods, more than 2^53 (the largest exact period count)");
     const long k = static_cast<long>(periods);
-    advance(t0, t0 + dir * T, X, error);
+    advance_from_identity(t0, t0 + dir * T, X, error);
     Eigen::MatrixXd Mk, EMk;
     power_with_error(X, error, k, Mk, EMk);
     const double rest = t1 - (t0 + dir * static_cast<double>(k) * T);
@@ -129,7 +226,7 @@ Eigen::MatrixXd Propagator::transition(double t0, double t1) {
       throw NumericalError(generator_.label + ": transition matrix is not finite over " +
                            std::to_string(k) + " periods");
   } else {
-    advance(t0, t1, X, error);
+    advance_from_identity(t0, t1, X, error);
   }
   stats_.error_estimate = error.cwiseAbs().maxCoeff();
   return X;

@@ -62,11 +62,15 @@ class Propagator {
   /// Integrates X from t_from to t_to in place, legs split at breakpoints. ERROR is the
   /// estimated error matrix of X, carried in and updated.
   void advance(double t_from, double t_to, Eigen::MatrixXd& X, Eigen::MatrixXd& error);
+  /// X = Phi(t_to, t_from) and its error matrix, from the identity: the window's pieces on
+  /// options().threads threads when the generator can be forked, else advance().
+  void advance_from_identity(double t_from, double t_to, Eigen::MatrixXd& X, Eigen::MatrixXd& error);
 
   Generator generator_;
   PropagationOptions options_;
   PropagationStats stats_;
   std::unique_ptr<StepperBase> stepper_;
+  std::vector<Propagator> helpers_;  // one per extra thread, on forked generators
 };
 
 /// Picks the method that Method::Auto stands for, by the rule documented in the README.

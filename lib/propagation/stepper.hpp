@@ -24,6 +24,7 @@ class StepperBase {
 
 std::unique_ptr<StepperBase> make_magnus_stepper(const Generator& g, const PropagationOptions& o,
                                                  int order);
+std::unique_ptr<StepperBase> make_runge_kutta8_stepper(const Generator& g, const PropagationOptions& o);
 std::unique_ptr<StepperBase> make_cvode_stepper(const Generator& g, const PropagationOptions& o,
                                                 bool stiff);
 

@@ -133,7 +133,8 @@ ResponsePath parse_response_path(const std::string& name) {
 void RespondOptions::validate(const System& sys) const {
   propagation.validate();
   if (path == ResponsePath::Direct &&
-      (propagation.method == Method::Magnus4 || propagation.method == Method::Magnus6))
+      (propagation.method == Method::Magnus4 || propagation.method == Method::Magnus6 ||
+       propagation.method == Method::Rk8))
     throw InputError("PropagationOptions::method: " + method_name(propagation.method) +
                      " is an engine method of the exact path; the direct path takes auto, adams or bdf");
   if (x0.size() != 0 && x0.size() != sys.states())

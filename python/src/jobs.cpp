@@ -30,8 +30,8 @@ ordex::PropagationOptions engine(const std::string& method, double rtol, double 
 }
 
 const char* const kEngineDoc = R"doc(
-Engine options (PropagationOptions): method "auto" (default), "magnus4", "magnus6", "adams" or
-"bdf"; rtol (default 1e-8, in [1e-14, 0.1]) and atol (default 1e-10, > 0) of each step; max_step
+Engine options (PropagationOptions): method "auto" (default), "magnus4", "magnus6", "adams", "bdf" or
+"rk8"; rtol (default 1e-8, in [1e-14, 0.1]) and atol (default 1e-10, > 0) of each step; max_step
 (0: no limit); max_steps (default 10^7).)doc";
 
 std::string doc(const char* text) { return std::string(text) + kEngineDoc; }

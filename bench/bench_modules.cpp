@@ -6,7 +6,10 @@
 //                it by default (101 samples, so the sweep has 100 intervals and 2 threads);
 //   discrete     the zero-order-hold discrete model on a 10 ms grid (6,000 intervals), steps
 //                not kept (as ordex-discretize streams them to its file);
-//   profile      1,000 sliding windows of 6 s (stride 54/999 s) of the controllability Gramian.
+//   profile      1,000 sliding windows of 6 s (stride 54/999 s) of the controllability Gramian;
+//   exponential  one exponential of the 80 x 80 block generator [[A, B B'], [0, -A']] times 0.02 s
+//                at t = 30, on the blocks (block_expm.hpp) against the same matrix taken dense
+//                (a 1e-300 entry in its lower-left block turns the block path off).
 // Each figure is the best of REPEATS runs, wall time and process CPU time (all threads).
 // usage: ordex_bench_modules [--repeats N] [--threads N] [--skip-profile]
 #include <algorithm>
@@ -21,6 +24,7 @@
 #include "gramian/profile.hpp"
 #include "model/model_file.hpp"
 #include "model/time_grid.hpp"
+#include "propagation/expm.hpp"
 #include "propagation/propagator.hpp"
 #include "response/discretize.hpp"
 
@@ -110,6 +114,26 @@ int main(int argc, char** argv) {
     row("profile, 1,000 windows of 6 s", prof, gram, "Gramian",
         std::to_string(pr.windows.size()) + " windows, " + std::to_string(pr.grid_points) + " grid times, " +
             std::to_string(pr.recomposed) + " recomposed, " + std::to_string(pr.stats.steps) + " steps");
+  }
+  {
+    const int n = sys->states();
+    Eigen::MatrixXd a(n, n), b(n, sys->inputs());
+    sys->A(30.0, a);
+    sys->B(30.0, b);
+    Eigen::MatrixXd g = Eigen::MatrixXd::Zero(2 * n, 2 * n);
+    g.topLeftCorner(n, n) = a;
+    g.topRightCorner(n, n) = b * b.transpose();
+    g.bottomRightCorner(n, n) = -a.transpose();
+    g *= 0.02;
+    Eigen::MatrixXd dense = g, e1, e2;
+    dense(2 * n - 1, 0) = 1e-300;
+    MatrixExponential ex;
+    const int count = 500;
+    const Cost blocks = best_cost(repeats, [&] { for (int i = 0; i < count; ++i) ex.compute(g, e1); });
+    const Cost full = best_cost(repeats, [&] { for (int i = 0; i < count; ++i) ex.compute(dense, e2); });
+    row("500 exponentials 80 x 80, dense", full, full, "dense", "");
+    row("500 exponentials 80 x 80, blocks", blocks, full, "dense",
+        "max difference " + std::to_string((e1 - e2).cwiseAbs().maxCoeff() / e2.cwiseAbs().maxCoeff()) + " relative");
   }
   return 0;
 }

@@ -108,6 +108,43 @@ TEST(DiscretizeJob, ZeroOrderHoldOfTheScalarPlantMatchesTheClosedForm) {
   EXPECT_EQ(discretize(*sys, 0.0, 1.0, grid).model.times.size(), 5u);
 }
 
+TEST(DiscretizeJob, ThreadedIntervalsMatchTheClosedFormOfATimeVaryingInput) {
+  // x' = c x + cos(t) u with u held on [s, t]: phi = e^{c h} and, integrated by hand,
+  // gamma = int_s^t e^{c (t - r)} cos(r) dr = [e^{c (t - r)} (sin r - c cos r)]_s^t / (1 + c^2).
+  // 600 intervals: several batches on each of three threads, handed back in order.
+  auto sys = load_model(kData + "response_cosine_input.toml");
+  ASSERT_TRUE(sys->clones_may_run_concurrently());
+  const double c = -0.7;
+  DiscretizeOptions o;
+  o.step = 0.01;
+  o.threads = 3;
+  const DiscretizeReport rep = discretize(*sys, 0.0, 6.0, o);
+  ASSERT_EQ(rep.model.steps.size(), 600u);
+  EXPECT_EQ(rep.computed_steps, 600);
+  double worst_phi = 0, worst_gamma = 0;
+  for (std::size_t k = 0; k < rep.model.steps.size(); ++k) {
+    const StepMatrices& st = rep.model.steps[k];
+    ASSERT_EQ(st.t_start, rep.model.times[k]);
+    ASSERT_EQ(st.t_end, rep.model.times[k + 1]);
+    const double s = st.t_start, t = st.t_end;
+    auto prim = [&](double r) { return std::exp(c * (t - r)) * (std::sin(r) - c * std::cos(r)) / (1 + c * c); };
+    worst_phi = std::max(worst_phi, std::abs(st.phi(0, 0) - std::exp(c * (t - s))));
+    worst_gamma = std::max(worst_gamma, std::abs(st.gamma0(0, 0) - (prim(t) - prim(s))));
+  }
+  EXPECT_LT(worst_phi, 1e-10);
+  EXPECT_LT(worst_gamma, 1e-10);
+  // The largest single step's gain is max_k e^{c h_k} = e^{-0.007} (all steps of 10 ms).
+  EXPECT_NEAR(rep.largest_step, std::exp(c * 0.01), 1e-12);
+  // The same grid on one thread: the same steps within the engine's tolerance.
+  o.threads = 1;
+  const DiscretizeReport one = discretize(*sys, 0.0, 6.0, o);
+  for (std::size_t k = 0; k < rep.model.steps.size(); k += 37)
+    EXPECT_NEAR(one.model.steps[k].gamma0(0, 0), rep.model.steps[k].gamma0(0, 0), 1e-10);
+  o.threads = 0;
+  EXPECT_NE(input_error_of([&] { discretize(*sys, 0.0, 6.0, o); }).find("DiscretizeOptions::threads = 0"),
+            std::string::npos);
+}
+
 TEST(ResponseJobs, ValidateNamesTheFields) {
   auto sys = scalar_plant(-1.0, 1.0);
   const InputHistory h = make_input_history({0.0, 1.0}, Eigen::MatrixXd::Ones(2, 1));

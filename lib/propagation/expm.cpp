@@ -92,6 +92,11 @@ void MatrixExponential::pade(Eigen::MatrixXd& out) {
     squarings = std::max(0, static_cast<int>(std::ceil(std::log2(norm1_a / kTheta13))));
   }
   if (squarings > 0) a_ *= std::ldexp(1.0, -squarings);
+  // Block upper triangular (the modules' generators): the same approximant on the blocks.
+  if (const Eigen::Index split = block_triangular_split(a_)) {
+    block_.compute(a_, split, b, degree, squarings, out);
+    return;
+  }
   a2_.noalias() = a_ * a_;
   const auto I = Eigen::MatrixXd::Identity(n, n);
   if (degree == 13) {

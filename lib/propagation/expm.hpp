@@ -4,6 +4,8 @@
 // calls so that a Magnus step allocates nothing once the sizes are set.
 #include <Eigen/Dense>
 
+#include "propagation/block_expm.hpp"
+
 namespace ordex {
 
 class MatrixExponential {
@@ -18,6 +20,7 @@ class MatrixExponential {
   Eigen::MatrixXd a_, a2_, a4_, a6_, u_, v_, tmp_, p_, q_;
   Eigen::VectorXd scale_;
   Eigen::PartialPivLU<Eigen::MatrixXd> lu_;
+  BlockTriangularPade block_;  // for block upper triangular arguments (block_expm.hpp)
 };
 
 }  // namespace ordex

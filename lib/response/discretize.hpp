@@ -28,6 +28,9 @@ struct DiscretizeOptions {
   /// Reuse the step of an equal-length interval when the model looks time-invariant
   /// (known_time_invariant); default true.
   bool reuse_time_invariant = true;
+  /// Threads for the intervals of a time-varying model (each its own model copy and engine;
+  /// StepMatrixBuilder); default 2. Must be in [1, 64].
+  int threads = 2;
   /// For discretize(sys, t0, t1, ...): the grid t0, t0 + step, t0 + 2 step, ... and t1 (step_grid);
   /// default 0 means `samples` equally spaced times instead. 0 or a positive number.
   double step = 0;

@@ -2,7 +2,9 @@
 
 #include <algorithm>
 #include <cmath>
+#include <exception>
 #include <limits>
+#include <thread>
 
 #include "io/errors.hpp"
 
@@ -46,8 +48,13 @@ bool known_time_invariant(const System& sys, double t0, double t1) {
   return sys.time_invariant() && sys.breakpoints_between(t0, t1).empty();
 }
 
-StepMatrixBuilder::StepMatrixBuilder(const System& sys, Hold hold, PropagationOptions options, bool reuse)
-    : sys_(sys), hold_(hold), reuse_(reuse), generator_(held_input_generator(sys, hold)), options_(std::move(options)) {
+StepMatrixBuilder::StepMatrixBuilder(const System& sys, Hold hold, PropagationOptions options, bool reuse, int threads)
+    : sys_(sys),
+      hold_(hold),
+      reuse_(reuse),
+      threads_(std::max(1, threads)),
+      generator_(held_input_generator(sys, hold)),
+      options_(std::move(options)) {
   // Validates the options and resolves the method now, so errors surface before any work.
   stats_.method = Propagator(generator_, options_).method();
 }
@@ -70,6 +77,10 @@ void StepMatrixBuilder::for_each_step(const std::vector<double>& knots,
   // The switching times of non-smooth entries inside this grid's span become breakpoints.
   Generator generator = generator_;
   add_switching_times(generator, sys_, knots.front(), knots.back());
+  if (!time_invariant_ && threads_ > 1 && knots.size() > 2 && sys_.clones_may_run_concurrently()) {
+    parallel_steps(generator, knots, visit);
+    return;
+  }
   Propagator propagator(generator, options_);
   if (!time_invariant_) {
     propagator.for_each_interval(knots, [&](std::size_t k, const Eigen::MatrixXd& S) {
@@ -109,6 +120,70 @@ void StepMatrixBuilder::for_each_step(const std::vector<double>& knots,
     visit(k, st);
   }
   add_stats(propagator.stats());
+}
+
+void StepMatrixBuilder::parallel_steps(const Generator& generator, const std::vector<double>& knots,
+                                       const std::function<void(std::size_t, const StepMatrices&)>& visit) {
+  const int n = sys_.states(), m = sys_.inputs();
+  const std::size_t intervals = knots.size() - 1;
+  const int threads = static_cast<int>(std::min<std::size_t>(static_cast<std::size_t>(threads_), intervals));
+  // Each thread integrates a batch of consecutive intervals per round on its own model clone and
+  // engine (kept across rounds, so each engine carries its step size along as the serial path
+  // does); the main thread then hands the round's steps to VISIT in order. A batch of 128 keeps
+  // the memory held bounded (threads x 128 transition matrices) and the thread starts rare.
+  constexpr std::size_t kBatch = 128;
+  std::vector<std::unique_ptr<System>> clones;
+  std::vector<Propagator> engines;
+  PropagationOptions o = options_;
+  o.progress = nullptr;  // reported per round below
+  for (int c = 0; c < threads; ++c) {
+    clones.push_back(sys_.clone());
+    Generator g = held_input_generator(*clones.back(), hold_);
+    g.breakpoints = generator.breakpoints;  // the model's and the switching times, found once
+    g.notes = generator.notes;
+    engines.emplace_back(std::move(g), o);
+  }
+  std::vector<double> worst(static_cast<std::size_t>(threads), 0.0);
+  std::vector<std::vector<Eigen::MatrixXd>> out(static_cast<std::size_t>(threads));
+  std::vector<std::exception_ptr> errors(static_cast<std::size_t>(threads));
+  for (std::size_t round = 0; round < intervals; round += kBatch * static_cast<std::size_t>(threads)) {
+    auto work = [&](int c) {
+      try {
+        out[c].clear();
+        const std::size_t first = round + kBatch * static_cast<std::size_t>(c);
+        if (first >= intervals) return;
+        const std::size_t last = std::min(intervals, first + kBatch);  // intervals [first, last)
+        const std::vector<double> sub(knots.begin() + static_cast<std::ptrdiff_t>(first),
+                                      knots.begin() + static_cast<std::ptrdiff_t>(last) + 1);
+        engines[c].for_each_interval(sub, [&](std::size_t, const Eigen::MatrixXd& S) { out[c].push_back(S); });
+        worst[c] = std::max(worst[c], engines[c].stats().error_estimate);
+      } catch (...) {
+        errors[c] = std::current_exception();
+      }
+    };
+    std::vector<std::thread> pool;
+    for (int c = 1; c < threads; ++c) pool.emplace_back(work, c);
+    work(0);
+    for (auto& th : pool) th.join();
+    for (auto& e : errors)
+      if (e) std::rethrow_exception(e);  // the earliest interval's failure first
+    for (int c = 0; c < threads; ++c) {
+      const std::size_t first = round + kBatch * static_cast<std::size_t>(c);
+      for (std::size_t i = 0; i < out[c].size(); ++i) {
+        const std::size_t k = first + i;
+        ++computed_;
+        visit(k, step_from_transition(out[c][i], n, m, hold_, knots[k], knots[k + 1]));
+      }
+    }
+    if (options_.progress)
+      options_.progress(std::min(1.0, (knots[std::min(intervals, round + kBatch * threads)] - knots.front()) /
+                                          (knots.back() - knots.front())));
+  }
+  for (int c = 0; c < threads; ++c) {
+    PropagationStats s = engines[c].stats();
+    s.error_estimate = worst[c];
+    add_stats(s);
+  }
 }
 
 std::vector<StepMatrices> StepMatrixBuilder::steps(const std::vector<double>& knots) {

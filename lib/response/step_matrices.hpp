@@ -48,7 +48,12 @@ class StepMatrixBuilder {
  public:
   /// REUSE: when looks_time_invariant holds on a grid, intervals of the same length (up to
   /// rounding of the times) share one computed step instead of integrating each.
-  StepMatrixBuilder(const System& sys, Hold hold, PropagationOptions options, bool reuse = true);
+  /// THREADS: intervals are independent work; with more than one thread (and a model whose
+  /// clones may run concurrently) batches of consecutive intervals are integrated on that many
+  /// threads, each with its own model clone and engine, and still handed to VISIT in order. The
+  /// steps then depend on the thread count within the engine's tolerance (each engine carries its
+  /// own step size from interval to interval), never on the timing.
+  StepMatrixBuilder(const System& sys, Hold hold, PropagationOptions options, bool reuse = true, int threads = 1);
 
   /// Hands the step of each interval of KNOTS (strictly increasing) to VISIT, in order.
   void for_each_step(const std::vector<double>& knots,
@@ -68,10 +73,14 @@ class StepMatrixBuilder {
 
  private:
   void add_stats(const PropagationStats& s);
+  /// The time-varying path on several threads.
+  void parallel_steps(const Generator& generator, const std::vector<double>& knots,
+                      const std::function<void(std::size_t k, const StepMatrices& step)>& visit);
 
   const System& sys_;
   Hold hold_;
   bool reuse_;
+  int threads_;
   Generator generator_;
   PropagationOptions options_;
   PropagationStats stats_;

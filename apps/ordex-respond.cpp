@@ -82,7 +82,7 @@ int main(int argc, char** argv) {
         const std::string group = "run_" + std::to_string(s.run + 1);
         h.t = h5.series(group + "/t");
         h.x = h5.series(group + "/x", static_cast<int>(s.x.size()));
-        h.y = h5.series(group + "/y", static_cast<int>(s.y.size()));
+        if (s.y.size() > 0) h.y = h5.series(group + "/y", static_cast<int>(s.y.size()));  // none without outputs
       }
       h5.append_value(h.t, s.t);
       h5.append(h.x, s.x);

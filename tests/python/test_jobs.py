@@ -295,5 +295,44 @@ class Discretize(unittest.TestCase):
         self.assertIn("DiscretizeOptions::hold", str(c.exception))
 
 
+def test_long_results_are_not_copied_out():
+    # A response's x and y are the library's own matrices handed to numpy (moved, not copied):
+    # the array does not own its memory, a capsule holding the C++ matrix does. A copy would
+    # own its data. Column-major like Eigen, so x[:, j] (one state over time) is contiguous.
+    sys = constant_plant()
+    t = np.linspace(0.0, 2.0, 2001)
+    r = ordex.respond(sys, t, np.column_stack([np.sin(t), np.cos(t)]))
+    for a in (r.x, r.y):
+        assert not a.flags.owndata
+        assert type(a.base).__name__ == "PyCapsule"
+        assert a.flags.f_contiguous and a.flags.writeable
+    _, yout, xout = signal.lsim((A3, B3, C3, D3), np.column_stack([np.sin(t), np.cos(t)]), t, interp=True)
+    np.testing.assert_allclose(r.x, xout, atol=1e-7)  # scipy.signal.lsim, the same linear hold
+    np.testing.assert_allclose(r.y, yout.reshape(r.y.shape), atol=1e-7)
+
+
+def test_arrays_in_of_any_layout_and_left_alone():
+    # Inputs are read through numpy's buffer (any dtype that casts to float64, any strides): a
+    # Fortran-ordered float32 input and a strided view give the same response as the plain
+    # array, and the caller's arrays are not modified.
+    sys = constant_plant()
+    t = np.linspace(0.0, 1.0, 41)
+    u = np.column_stack([np.sin(3 * t), t * t])
+    plain = ordex.respond(sys, t, u).x
+    wide = np.zeros((41, 4))
+    wide[:, ::2] = u
+    before = wide.copy()
+    np.testing.assert_array_equal(ordex.respond(sys, t, wide[:, ::2]).x, plain)
+    np.testing.assert_array_equal(wide, before)
+    u32 = np.asfortranarray(u.astype(np.float32))
+    np.testing.assert_allclose(ordex.respond(sys, t, u32).x, plain, atol=1e-6)  # float32 rounding of u
+    # A sampled system keeps its own copy: changing the caller's array afterwards changes nothing.
+    times = np.linspace(0.0, 1.0, 5)
+    As = np.repeat(A3[None], 5, axis=0)
+    sampled = ordex.System.from_samples(["p", "q", "r"], times, As)
+    As[:] = 0.0
+    np.testing.assert_allclose(ordex.transition(sampled, 0.0, 1.0).phi, linalg.expm(A3), atol=1e-7)
+
+
 if __name__ == "__main__":
     unittest.main()

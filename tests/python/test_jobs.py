@@ -46,9 +46,11 @@ def test_constant_matches_expm():
     assert r.error_estimate < 1e-6
     assert r.phi.shape == (3, 3)
 
+
 def test_backward_is_inverse():
     r = ordex.transition(constant_plant(), 2.0, 0.5)
     np.testing.assert_allclose(r.phi, linalg.expm(-1.5 * A3), atol=1e-8)
+
 
 def test_mathieu_matches_solve_ivp():
     sys = ordex.load_model(os.path.join(MODELS, "mathieu.toml"), set={"a": 2.3, "q": 0.9})
@@ -57,6 +59,7 @@ def test_mathieu_matches_solve_ivp():
         ref = solve_ivp_phi(mathieu_rhs(2.3, 0.9), 2, 0.0, 4.0)
         np.testing.assert_allclose(r.phi, ref, atol=5e-7, err_msg=method)
 
+
 def test_grid_streams_into_array():
     sys = constant_plant()
     r = ordex.transition(sys, 0.0, 2.0, samples=5)
@@ -64,6 +67,7 @@ def test_grid_streams_into_array():
     np.testing.assert_allclose(r.times, np.linspace(0, 2, 5), atol=1e-15)
     for t, phi in zip(r.times, r.phis):
         np.testing.assert_allclose(phi, linalg.expm(A3 * t), atol=1e-8)
+
 
 def test_options_validated_by_the_library():
     sys = constant_plant()
@@ -77,6 +81,7 @@ def test_options_validated_by_the_library():
         ordex.transition(sys, 0, 1, samples=1)
     assert "PropagateOptions::samples" in str(c.value)
 
+
 def test_to_dict_is_the_summary():
     r = ordex.transition(constant_plant(), 0.0, 1.0)
     d = r.to_dict()
@@ -85,6 +90,7 @@ def test_to_dict_is_the_summary():
     np.testing.assert_array_equal(np.array(d["phi"]), r.phi)  # full precision in the JSON
     assert "Transition matrix" in str(r)
     json.dumps(d)
+
 
 def test_numerical_error_class():
     # A(t) = 1 / (1 - t)^3 blows up at t = 1: the integration must fail, as NumericalError.
@@ -114,6 +120,7 @@ def test_mathieu_monodromy_against_solve_ivp():
     # Liouville: trace A = 0, so det M = 1 = product of the multipliers.
     assert round(abs(abs(np.prod(f.multipliers)) - 1.0), 7) == 0
 
+
 def test_needs_a_period():
     with pytest.raises(ordex.InputError) as c:
         ordex.floquet(constant_plant())
@@ -132,6 +139,7 @@ def test_long_window_matches_lyapunov():
     assert r.rank == 3
     np.testing.assert_allclose(r.eigenvalues, np.linalg.eigvalsh(ref), rtol=1e-6)
 
+
 def test_observability_and_lyapunov_route():
     sys = constant_plant()
     # Observability Gramian over [0, T] = int exp(A' s) C'C exp(A s) ds -> A'M + MA + C'C = 0.
@@ -139,6 +147,7 @@ def test_observability_and_lyapunov_route():
     for route in ("block", "lyapunov"):
         r = ordex.gramian(sys, 0.0, 60.0, kind="observability", route=route, rtol=1e-10, atol=1e-12)
         np.testing.assert_allclose(r.gramian, ref, rtol=1e-6, atol=1e-9, err_msg=route)
+
 
 def test_double_integrator_closed_form_transfer_and_profile():
     # Double integrator: W_r(0, T) = [[T^3/3, T^2/2], [T^2/2, T]] (standard result); the
@@ -162,6 +171,7 @@ def test_double_integrator_closed_form_transfer_and_profile():
     # The running Gramian at t_k is W_r(0, t_k).
     tk = r.running_times[50]
     np.testing.assert_allclose(r.running[50], [[tk ** 3 / 3, tk ** 2 / 2], [tk ** 2 / 2, tk]], rtol=1e-7)
+
 
 def test_bad_kind_names_the_field():
     with pytest.raises(ordex.InputError) as c:
@@ -188,6 +198,7 @@ def test_long_horizon_matches_care():
     assert "Caution" in str(r)
     assert "caution" in r.to_dict()
 
+
 def test_weights_errors():
     with pytest.raises(ordex.InputError) as c:
         ordex.regulate(constant_plant(), 0, 1, weights={"Q": np.eye(2)})
@@ -213,6 +224,7 @@ def test_matches_lsim():
         np.testing.assert_allclose(r.times, t)
     assert r.to_dict()["hold"] == "zoh"
 
+
 def test_several_runs_match_lsim():
     sys = constant_plant()
     t = np.linspace(0.0, 4.0, 41)
@@ -228,6 +240,7 @@ def test_several_runs_match_lsim():
         np.testing.assert_allclose(r.x_final[k], xout[-1], atol=1e-7)
     assert len(r.to_dict()["runs"]) == 3
 
+
 def test_window_is_the_span_of_times():
     # The pumped oscillator's file declares [window] 0 .. 2 pi; given times rule here.
     sys = ordex.load_model(os.path.join(MODELS, "pumped_oscillator.toml"))
@@ -235,6 +248,7 @@ def test_window_is_the_span_of_times():
     r = ordex.respond(sys, t, np.ones(21))
     assert r.x.shape == (21, 2)
     assert r.t1 == 10.0
+
 
 def test_free_response_and_input_shape():
     sys = ordex.load_model(os.path.join(MODELS, "mathieu.toml"))
@@ -259,6 +273,7 @@ def test_zoh_matches_cont2discrete():
         np.testing.assert_allclose(d.phi[k], Ad, atol=1e-9)
         np.testing.assert_allclose(d.gamma[k], Bd, atol=1e-9)
 
+
 def test_linear_hold_matches_foh():
     # cont2discrete's "foh" gives x_{k+1} = Ad x_k + Bd' ... in a state-shifted form; compare
     # responses instead: the discrete model under a ramp equals lsim with interp=True.
@@ -269,6 +284,7 @@ def test_linear_hold_matches_foh():
     x = d.simulate(np.zeros(3), u)
     _, _, xout = signal.lsim((A3, B3, C3, D3), u, times, interp=True)
     np.testing.assert_allclose(x, xout, atol=1e-8)
+
 
 def test_step_grid():
     # t0 = 0, t1 = 1, step 0.3: intervals 0.3, 0.3, 0.3 and 0.1, each the zoh discretization
@@ -282,6 +298,7 @@ def test_step_grid():
     assert len(ordex.discretize(constant_plant(), t0=0.0, t1=1.0).times) == 101
     with pytest.raises(ordex.InputError):
         ordex.discretize(constant_plant(), t0=0.0)
+
 
 def test_bad_hold():
     with pytest.raises(ordex.InputError) as c:

@@ -2,6 +2,7 @@
 // (CONTRACT.md "ordex-respond"), the response job of lib/response/respond.hpp.
 #include <filesystem>
 #include <iostream>
+#include <memory>
 #include <set>
 
 #include "common/front_end.hpp"
@@ -64,24 +65,37 @@ int main(int argc, char** argv) {
     std::vector<InputHistory> histories;
     for (const std::string& p : inputs) histories.push_back(read_input_history(p, sys));
     SummaryOutput json(c.json);
+    // The CSV and HDF5 files take each sample as it is computed (RespondOptions::sink): the
+    // report keeps only the runs' summaries, so memory does not grow with the output times.
+    std::vector<std::unique_ptr<RunCsv>> csv_files;
+    for (const std::string& path : csvs) csv_files.push_back(std::make_unique<RunCsv>(path, sys.info().state_names, sys.info().output_names));
     Hdf5Output h5(hdf5);
+    struct RunSeries {
+      int t = -1, x = -1, y = -1;
+    };
+    std::vector<RunSeries> series(std::max<std::size_t>(histories.size(), 1));
+    o.sink = [&](const ResponseSample& s) {
+      if (s.run < csv_files.size()) csv_files[s.run]->row(s.t, s.x, s.y);
+      if (!h5) return;
+      RunSeries& h = series.at(s.run);
+      if (s.k == 0) {
+        const std::string group = "run_" + std::to_string(s.run + 1);
+        h.t = h5.series(group + "/t");
+        h.x = h5.series(group + "/x", static_cast<int>(s.x.size()));
+        if (s.y.size() > 0) h.y = h5.series(group + "/y", static_cast<int>(s.y.size()));  // none without outputs
+      }
+      h5.append_value(h.t, s.t);
+      h5.append(h.x, s.x);
+      h5.append(h.y, s.y);
+      if (s.k + 1 == s.count)  // the run is complete: its chunks go to the file
+        for (int id : {h.t, h.x, h.y}) h5.finish(id);
+    };
     const RespondReport rep = respond(sys, histories, o);
     for (const std::string& w : rep.warnings) std::cerr << "ordex-respond: warning: " << w << std::endl;
     const Json summary = with_app("ordex-respond", rep.to_json());
     json.write(summary);
-    for (std::size_t i = 0; i < csvs.size(); ++i) write_run_csv(csvs[i], rep, rep.runs[i]);
-    for (std::size_t i = 0; h5 && i < rep.runs.size(); ++i) {
-      const RunResult& run = rep.runs[i];
-      const std::string group = "run_" + std::to_string(i + 1);
-      h5.vector(group + "/t", run.times);
-      const int hx = h5.series(group + "/x", static_cast<int>(run.states.cols()));
-      const int hy = h5.series(group + "/y", static_cast<int>(run.outputs.cols()));
-      for (Eigen::Index k = 0; k < run.states.rows(); ++k) {
-        h5.append(hx, run.states.row(k).transpose());
-        if (run.outputs.cols() > 0) h5.append(hy, run.outputs.row(k).transpose());
-      }
-      h5.attributes(summary["runs"][i], group);
-    }
+    for (auto& f : csv_files) f->commit();
+    for (std::size_t i = 0; h5 && i < rep.runs.size(); ++i) h5.attributes(summary["runs"][i], "run_" + std::to_string(i + 1));
     h5.attributes(summary, "/", {"runs"});
     h5.commit();
     json.commit();

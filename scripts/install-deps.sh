@@ -7,6 +7,7 @@ packages=(build-essential cmake pkg-config libeigen3-dev libsundials-dev libboos
           libgtest-dev python3-numpy python3-scipy
           clang libclang-rt-dev   # clang + libFuzzer and sanitizer runtimes: scripts/test-fuzz.sh
           pybind11-dev python3-dev python3-pybind11 python3-matplotlib  # Python package and plots
+          python3-pytest            # runs tests/python/test_*.py under ctest
           libhdf5-dev python3-h5py  # HDF5 output of matrix series
           libginac-dev              # exact Jacobians of nonlinear models
           libopenmpi-dev openmpi-bin  # ordex-sweep across ranks

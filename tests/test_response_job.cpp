@@ -79,6 +79,65 @@ TEST(RespondJob, FreeResponseNeedsNoHistoryAndUsesTheModelWindow) {
   expect_header(rep.to_json(), kData + "response_free.toml", 0.0, 6.0);
 }
 
+TEST(RespondJob, SinkReceivesEverySampleAndTheReportKeepsNone) {
+  // Ramps u = c t on two grids (two histories share one, a third has its own). Streamed to a
+  // sink, every sample must equal the closed form x(t) = x0 e^{at} + b c (e^{at} - 1 - a t) / a^2
+  // (variation of constants, integrated by hand) and y = x + d(t) u with d(t) = 0.3 + 0.1 t, each
+  // run's samples in order of time, and the report must hold no sample arrays.
+  const double a = -0.8, b = 1.3, x0 = 0.2;
+  auto sys = scalar_plant(a, b, true);
+  sys->set_D([](double t, MatrixRef m) { m(0, 0) = 0.3 + 0.1 * t; });
+  const std::vector<double> c{0.5, -1.5, 2.0};
+  auto ramp = [&](const std::vector<double>& t, double slope) {
+    Eigen::MatrixXd u(static_cast<Eigen::Index>(t.size()), 1);
+    for (std::size_t k = 0; k < t.size(); ++k) u(static_cast<Eigen::Index>(k), 0) = slope * t[k];
+    return make_input_history(t, u);
+  };
+  const std::vector<double> shared{0.0, 0.7, 1.9, 3.0, 4.0}, own{0.0, 1.0, 2.5, 4.0};
+  const std::vector<InputHistory> hs{ramp(shared, c[0]), ramp(shared, c[1]), ramp(own, c[2])};
+  for (ResponsePath path : {ResponsePath::Exact, ResponsePath::Direct}) {
+    SCOPED_TRACE(response_path_name(path));
+    RespondOptions o;
+    o.path = path;
+    o.x0 = Eigen::VectorXd::Constant(1, x0);
+    o.samples = 9;
+    o.propagation.rtol = 1e-10;
+    o.propagation.atol = 1e-12;
+    const RespondReport kept = respond(*sys, hs, o);
+    std::vector<std::vector<ResponseSample>> got(hs.size());
+    o.sink = [&](const ResponseSample& s) {
+      ASSERT_LT(s.run, got.size());
+      EXPECT_EQ(s.k, got[s.run].size());  // in order, none missing
+      got[s.run].push_back(s);
+    };
+    const RespondReport streamed = respond(*sys, hs, o);
+    ASSERT_EQ(streamed.runs.size(), hs.size());
+    for (std::size_t i = 0; i < hs.size(); ++i) {
+      const RunResult& r = streamed.runs[i];
+      EXPECT_TRUE(r.times.empty());
+      EXPECT_EQ(r.states.rows(), 0);
+      EXPECT_EQ(r.outputs.rows(), 0);
+      EXPECT_EQ(r.samples, 9u);
+      ASSERT_EQ(got[i].size(), 9u);
+      EXPECT_EQ(r.x_final, kept.runs[i].x_final);
+      EXPECT_EQ(r.y_final, kept.runs[i].y_final);
+      for (std::size_t k = 0; k < 9; ++k) {
+        const ResponseSample& s = got[i][k];
+        EXPECT_EQ(s.count, 9u);
+        const double t = s.t, e = std::exp(a * t), want = x0 * e + b * c[i] * (e - 1 - a * t) / (a * a);
+        EXPECT_NEAR(t, 0.5 * static_cast<double>(k), 1e-15);
+        EXPECT_NEAR(s.x(0), want, 1e-7) << "run " << i << ", t = " << t;
+        EXPECT_NEAR(s.y(0), want + (0.3 + 0.1 * t) * c[i] * t, 1e-7) << "run " << i << ", t = " << t;
+        // The same numbers as the samples kept without a sink.
+        EXPECT_EQ(s.t, kept.runs[i].times[k]);
+        EXPECT_EQ(s.x(0), kept.runs[i].states(static_cast<Eigen::Index>(k), 0));
+        EXPECT_EQ(s.y(0), kept.runs[i].outputs(static_cast<Eigen::Index>(k), 0));
+      }
+    }
+    EXPECT_EQ(streamed.to_json()["runs"][2]["samples"].get<int>(), 9);
+  }
+}
+
 TEST(DiscretizeJob, ZeroOrderHoldOfTheScalarPlantMatchesTheClosedForm) {
   // phi = e^{a h}, gamma = b (e^{a h} - 1) / a for a held input (integrated by hand).
   const double a = -0.8, b = 1.3, h = 0.25;

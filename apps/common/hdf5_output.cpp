@@ -32,6 +32,7 @@ Hdf5Output::~Hdf5Output() = default;
 int Hdf5Output::series(const std::string&, int, int) { return -1; }
 void Hdf5Output::append(int, const Eigen::Ref<const Eigen::MatrixXd>&) {}
 void Hdf5Output::append_value(int, double) {}
+void Hdf5Output::finish(int) {}
 void Hdf5Output::vector(const std::string&, const std::vector<double>&) {}
 void Hdf5Output::attributes(const Json&, const std::string&, const std::vector<std::string>&) {}
 void Hdf5Output::commit() {}
@@ -73,6 +74,7 @@ struct Hdf5Output::Impl {
     hid_t dataset = -1;
     int rank = 0;
     hsize_t rows = 0, cols = 0, count = 0;
+    bool finished = false;  // finish() closed it
   };
   std::vector<Series> series;
   std::vector<double> buffer;  // one sample, row-major
@@ -142,6 +144,7 @@ void Hdf5Output::append(int index, const Eigen::Ref<const Eigen::MatrixXd>& mat)
   if (!impl_ || index < 0) return;
   Impl& m = *impl_;
   Impl::Series& s = m.series.at(static_cast<std::size_t>(index));
+  if (s.finished) m.fail("a sample after the end of its series");
   if (s.dataset < 0) return;
   if (static_cast<hsize_t>(mat.size()) != s.rows * s.cols) m.fail("a sample of the wrong size");
   m.buffer.resize(static_cast<std::size_t>(mat.size()));
@@ -156,6 +159,17 @@ void Hdf5Output::append(int index, const Eigen::Ref<const Eigen::MatrixXd>& mat)
   m.check(H5Dwrite(s.dataset, H5T_NATIVE_DOUBLE, mem_space, file_space, H5P_DEFAULT, m.buffer.data()),
           "write a sample");
   ++s.count;
+}
+
+void Hdf5Output::finish(int index) {
+  if (!impl_ || index < 0) return;
+  Impl& m = *impl_;
+  Impl::Series& s = m.series.at(static_cast<std::size_t>(index));
+  if (s.dataset < 0) return;
+  const herr_t status = H5Dclose(s.dataset);
+  s.dataset = -1;
+  s.finished = true;
+  m.check(status, "close a dataset");
 }
 
 void Hdf5Output::append_value(int s, double x) {

@@ -42,6 +42,9 @@ class Hdf5Output {
   int series(const std::string& name, int rows = 0, int cols = 0);
   /// Appends one sample to series S: M is rows x cols (or a vector of rows entries).
   void append(int s, const Eigen::Ref<const Eigen::MatrixXd>& m);
+  /// Ends series S: its last chunks go to the file and its buffers are freed (later appends
+  /// to it are refused). Series still open are ended by commit().
+  void finish(int s);
   /// Appends the number X to a series of numbers.
   void append_value(int s, double x);
   /// A one-dimensional dataset NAME holding V (the sample times).

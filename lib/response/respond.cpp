@@ -62,63 +62,86 @@ RunPlan plan_run(const InputHistory& h, const std::optional<std::pair<double, do
   return p;
 }
 
-// y = C x + D u at the output times of the runs RS (histories HS), which share their output
-// times: C(t) and D(t) are evaluated once per time for all of them, and with CONSTANT once.
-void fill_outputs(const System& sys, const std::vector<const InputHistory*>& hs, Hold hold, bool constant,
-                  const std::vector<RunResult*>& rs) {
-  const int n = sys.states(), m = sys.inputs(), p = sys.outputs();
-  const RunResult& first = *rs.front();
-  const Eigen::Index N = static_cast<Eigen::Index>(first.times.size());
-  Eigen::MatrixXd C(p, n), D(p, m);
-  Eigen::VectorXd u(m);
-  auto eval = [&](double t) {
-    sys.C(t, C);
-    if (m > 0) sys.D(t, D);
-  };
-  for (RunResult* r : rs) {
-    r->outputs.resize(N, p);
-    r->y_final.setZero(p);
-  }
-  if (p == 0) return;
-  if (constant) eval(first.t0);
-  for (Eigen::Index k = 0; k < N; ++k) {
-    const double t = first.times[static_cast<std::size_t>(k)];
-    if (!constant) eval(t);
-    for (std::size_t i = 0; i < rs.size(); ++i) {
-      RunResult& r = *rs[i];
-      r.outputs.row(k).noalias() = r.states.row(k) * C.transpose();
-      if (m > 0) {
-        input_at(*hs[i], hold, t, u);
-        r.outputs.row(k).noalias() += u.transpose() * D.transpose();
-      }
-    }
-  }
-  eval(first.t1);
-  for (std::size_t i = 0; i < rs.size(); ++i) {
-    RunResult& r = *rs[i];
-    r.y_final = C * r.x_final;
-    if (m > 0) {
-      input_at(*hs[i], hold, r.t1, u);
-      r.y_final += D * u;
-    }
-  }
-}
+// y = C x + D u of the runs of one grid at one time: C(t) and D(t) are evaluated once per time
+// for all of them, and with CONSTANT (the model does not depend on t) once for the grid.
+class OutputEquation {
+ public:
+  OutputEquation(const System& sys, Hold hold, bool constant)
+      : sys_(sys), hold_(hold), constant_(constant), C_(sys.outputs(), sys.states()),
+        D_(sys.outputs(), sys.inputs()), u_(sys.inputs()) {}
 
-// XT: n x knots, column k the state at knot k.
-RunResult result_from_states(const RunPlan& plan, const Eigen::MatrixXd& XT) {
-  RunResult r;
-  r.source = plan.history->source;
-  r.t0 = plan.t0;
-  r.t1 = plan.t1;
-  r.states.resize(static_cast<Eigen::Index>(plan.output_knots.size()), XT.rows());
-  r.times.reserve(plan.output_knots.size());
-  for (std::size_t i = 0; i < plan.output_knots.size(); ++i) {
-    r.times.push_back(plan.knots[plan.output_knots[i]]);
-    r.states.row(static_cast<Eigen::Index>(i)) = XT.col(static_cast<Eigen::Index>(plan.output_knots[i])).transpose();
+  /// Y (p x R) = C(t) X + D(t) U(t), column r of X (n x R) the state of the run of history HS[r].
+  void at(double t, const std::vector<const InputHistory*>& hs, const Eigen::MatrixXd& X, Eigen::MatrixXd& Y) {
+    const int m = sys_.inputs(), p = sys_.outputs();
+    Y.resize(p, X.cols());
+    if (p == 0) return;
+    if (!constant_ || !evaluated_) {
+      sys_.C(t, C_);
+      if (m > 0) sys_.D(t, D_);
+      evaluated_ = true;
+    }
+    Y.noalias() = C_ * X;
+    if (m == 0) return;
+    for (Eigen::Index r = 0; r < X.cols(); ++r) {
+      input_at(*hs[static_cast<std::size_t>(r)], hold_, t, u_);
+      Y.col(r).noalias() += D_ * u_;
+    }
   }
-  r.x_final = XT.col(XT.cols() - 1);
-  return r;
-}
+
+ private:
+  const System& sys_;
+  Hold hold_;
+  bool constant_, evaluated_ = false;
+  Eigen::MatrixXd C_, D_;
+  Eigen::VectorXd u_;
+};
+
+// Where the samples of the runs go: into the report's runs, or to the sink as they come.
+class SampleOutlet {
+ public:
+  SampleOutlet(const ResponseSink& sink, std::vector<RunResult>& runs) : sink_(sink), runs_(runs) {}
+
+  /// Run RUN (of PLAN) starts: its window and, without a sink, room for its samples.
+  void begin(std::size_t run, const RunPlan& plan, Eigen::Index n, Eigen::Index p) {
+    RunResult& r = runs_[run];
+    r.source = plan.history->source;
+    r.t0 = plan.t0;
+    r.t1 = plan.t1;
+    r.samples = plan.output_knots.size();
+    if (sink_) return;
+    r.times.reserve(r.samples);
+    r.states.resize(static_cast<Eigen::Index>(r.samples), n);
+    r.outputs.resize(static_cast<Eigen::Index>(r.samples), p);
+  }
+  /// The K-th sample of run RUN: time T, state X, output Y.
+  void put(std::size_t run, std::size_t k, double t, const Eigen::Ref<const Eigen::VectorXd>& x,
+           const Eigen::Ref<const Eigen::VectorXd>& y) {
+    RunResult& r = runs_[run];
+    if (sink_) {
+      sample_.run = run;
+      sample_.k = k;
+      sample_.count = r.samples;
+      sample_.t = t;
+      sample_.x = x;
+      sample_.y = y;
+      sink_(sample_);
+      return;
+    }
+    r.times.push_back(t);
+    r.states.row(static_cast<Eigen::Index>(k)) = x.transpose();
+    r.outputs.row(static_cast<Eigen::Index>(k)) = y.transpose();
+  }
+  /// The run ends in state X at t1, with output Y.
+  void end(std::size_t run, const Eigen::Ref<const Eigen::VectorXd>& x, const Eigen::Ref<const Eigen::VectorXd>& y) {
+    runs_[run].x_final = x;
+    runs_[run].y_final = y;
+  }
+
+ private:
+  const ResponseSink& sink_;
+  std::vector<RunResult>& runs_;
+  ResponseSample sample_;  // reused: no allocation per sample
+};
 
 }  // namespace
 
@@ -225,6 +248,7 @@ RespondReport respond(const System& sys, const std::vector<InputHistory>& histor
   }
   const Eigen::VectorXd x0 = o.x0.size() ? o.x0 : Eigen::VectorXd::Zero(n);
   rep.runs.resize(plans.size());
+  SampleOutlet outlet(o.sink, rep.runs);
   // Histories on the same knots share one set of step matrices.
   std::vector<std::vector<std::size_t>> groups;
   for (std::size_t i = 0; i < plans.size(); ++i) {
@@ -245,10 +269,24 @@ RespondReport respond(const System& sys, const std::vector<InputHistory>& histor
   if (o.path == ResponsePath::Direct) {
     const OdeOptions oo = ode_options(o.propagation, o.direct_scheme);
     rep.method = method_of(oo.scheme);
+    // One run at a time: its states on every knot are held for the accuracy check of
+    // direct_states, its samples then go out and the states are dropped.
+    Eigen::MatrixXd x(n, 1), y;
     for (std::size_t i = 0; i < plans.size(); ++i) {
       const RunPlan& p = plans[i];
-      Eigen::MatrixXd X = direct_states(sys, *p.history, o.hold, p.knots, x0, oo, rep.direct, &rep.direct_accuracy);
-      rep.runs[i] = result_from_states(p, X.transpose());
+      const Eigen::MatrixXd X = direct_states(sys, *p.history, o.hold, p.knots, x0, oo, rep.direct, &rep.direct_accuracy);
+      OutputEquation out(sys, o.hold, known_time_invariant(sys, p.t0, p.t1));
+      const std::vector<const InputHistory*> h{p.history};
+      outlet.begin(i, p, n, sys.outputs());
+      for (std::size_t q = 0; q < p.output_knots.size(); ++q) {
+        const std::size_t k = p.output_knots[q];
+        x = X.row(static_cast<Eigen::Index>(k)).transpose();
+        out.at(p.knots[k], h, x, y);
+        outlet.put(i, q, p.knots[k], x.col(0), y.col(0));
+      }
+      x = X.row(X.rows() - 1).transpose();
+      out.at(p.t1, h, x, y);
+      outlet.end(i, x.col(0), y.col(0));
       report_progress(p.knots.size() - 1);
     }
     if (!rep.direct_accuracy.target_met)
@@ -256,34 +294,37 @@ RespondReport respond(const System& sys, const std::vector<InputHistory>& histor
                              " is " + format_number(rep.direct_accuracy.error_ratio) +
                              " times the requested tolerance (PropagationOptions::rtol = " +
                              format_number(o.propagation.rtol) + ") even at rtol 1e-14");
-    for (const auto& g : groups) {
-      const RunPlan& p = plans[g.front()];
-      const bool constant = o.reuse_time_invariant && known_time_invariant(sys, p.t0, p.t1);
-      std::vector<const InputHistory*> hs;
-      std::vector<RunResult*> rs;
-      for (std::size_t i : g) {
-        hs.push_back(plans[i].history);
-        rs.push_back(&rep.runs[i]);
-      }
-      fill_outputs(sys, hs, o.hold, constant, rs);
-    }
   } else {
     StepMatrixBuilder builder(sys, o.hold, o.propagation, o.reuse_time_invariant);
     for (const auto& g : groups) {
       const std::vector<double>& knots = plans[g.front()].knots;
       const std::size_t K = knots.size();
-      // States of every history of the group at every knot (n x K each), advanced together:
+      // The states of every history of the group, advanced together:
       // the R histories' states are the columns of one n x R matrix, so a step is three
-      // matrix products instead of 3R matrix-vector products.
+      // matrix products instead of 3R matrix-vector products. Only the current states are
+      // held: each output time's samples go out as the step reaches it.
       const Eigen::Index R = static_cast<Eigen::Index>(g.size());
-      std::vector<Eigen::MatrixXd> XT(g.size(), Eigen::MatrixXd(n, static_cast<Eigen::Index>(K)));
       std::vector<std::size_t> interval(g.size(), 0);  // each history's sample interval
-      Eigen::MatrixXd Xa = x0.replicate(1, R), Xb(n, R), Ua(m, R), Ub(m, R);
-      for (auto& x : XT) x.col(0) = x0;
+      Eigen::MatrixXd Xa = x0.replicate(1, R), Xb(n, R), Ua(m, R), Ub(m, R), Y;
+      const RunPlan& plan = plans[g.front()];  // the group's knots and output times
+      std::vector<const InputHistory*> hs;
+      for (std::size_t i : g) {
+        hs.push_back(plans[i].history);
+        outlet.begin(i, plans[i], n, sys.outputs());
+      }
+      OutputEquation out(sys, o.hold, known_time_invariant(sys, plan.t0, plan.t1));
+      std::size_t q = 0;  // the next output time
+      auto put_outputs = [&](std::size_t k, const Eigen::MatrixXd& X) {
+        for (; q < plan.output_knots.size() && plan.output_knots[q] == k; ++q) {
+          out.at(knots[k], hs, X, Y);
+          for (Eigen::Index r = 0; r < R; ++r) outlet.put(g[static_cast<std::size_t>(r)], q, knots[k], X.col(r), Y.col(r));
+        }
+      };
+      put_outputs(0, Xa);
       builder.for_each_step(knots, [&](std::size_t k, const StepMatrices& st) {
         const double a = knots[k], b = knots[k + 1];
         for (Eigen::Index r = 0; r < R; ++r) {
-          const InputHistory& h = *plans[g[static_cast<std::size_t>(r)]].history;
+          const InputHistory& h = *hs[static_cast<std::size_t>(r)];
           std::size_t& j = interval[static_cast<std::size_t>(r)];
           while (j + 2 < h.times.size() && h.times[j + 1] <= a) ++j;
           if (m > 0) {
@@ -298,20 +339,14 @@ RespondReport respond(const System& sys, const std::vector<InputHistory>& histor
         }
         if (!Xb.allFinite())
           throw NumericalError("the state is not finite at t = " + format_number(b) + " (" +
-                               plans[g.front()].history->source + (R > 1 ? " and others" : "") + ")");
-        for (Eigen::Index r = 0; r < R; ++r) XT[static_cast<std::size_t>(r)].col(static_cast<Eigen::Index>(k + 1)) = Xb.col(r);
+                               plan.history->source + (R > 1 ? " and others" : "") + ")");
+        put_outputs(k + 1, Xb);
         Xa.swap(Xb);
         if ((k & 1023) == 1023) report_progress(1024 * g.size());
       });
       done += ((K - 1) % 1024) * g.size();
-      std::vector<const InputHistory*> hs;
-      std::vector<RunResult*> rs;
-      for (std::size_t r = 0; r < g.size(); ++r) {
-        rep.runs[g[r]] = result_from_states(plans[g[r]], XT[r]);
-        hs.push_back(plans[g[r]].history);
-        rs.push_back(&rep.runs[g[r]]);
-      }
-      fill_outputs(sys, hs, o.hold, builder.time_invariant(), rs);
+      out.at(plan.t1, hs, Xa, Y);  // Xa: the states at t1
+      for (Eigen::Index r = 0; r < R; ++r) outlet.end(g[static_cast<std::size_t>(r)], Xa.col(r), Y.col(r));
       rep.time_invariant = rep.time_invariant || builder.time_invariant();
     }
     if (o.progress) o.progress(1.0);
@@ -337,7 +372,7 @@ Json run_summary_json(const RunResult& run) {
   j["input"] = run.source;
   j["t0"] = run.t0;
   j["t1"] = run.t1;
-  j["samples"] = run.times.size();
+  j["samples"] = run.samples;
   j["x_final"] = vector_to_json(run.x_final);
   j["y_final"] = vector_to_json(run.y_final);
   return j;
@@ -378,32 +413,51 @@ Json RespondReport::to_json() const {
   return j;
 }
 
-void write_run_csv(const std::string& path, const RespondReport& report, const RunResult& run) {
-  // Numbers in the shortest form that reads back to the same double (std::to_chars), which
-  // is full precision and several times faster than stream formatting on long runs.
-  OutputFile out(path);
-  std::string line = "t";
-  for (const auto& s : report.states) line += "," + s;
-  for (const auto& s : report.outputs) line += "," + s;
-  line += "\n";
-  std::ostream& o = out.stream();
-  o << line;
+struct RunCsv::Impl {
+  explicit Impl(const std::string& p) : path(p), out(p) {}
+  std::string path;
+  OutputFile out;
+  std::string line;
   char buf[32];
-  auto put = [&](double v, bool first) {
-    if (!first) line.push_back(',');
+  void put(double v) {
+    // The shortest form that reads back to the same double (std::to_chars): full precision,
+    // and several times faster than stream formatting on long runs.
     auto res = std::to_chars(buf, buf + sizeof buf, v);
     line.append(buf, res.ptr);
-  };
-  for (Eigen::Index k = 0; k < run.states.rows(); ++k) {
-    line.clear();
-    put(run.times[static_cast<std::size_t>(k)], true);
-    for (Eigen::Index j = 0; j < run.states.cols(); ++j) put(run.states(k, j), false);
-    for (Eigen::Index j = 0; j < run.outputs.cols(); ++j) put(run.outputs(k, j), false);
-    line.push_back('\n');
-    o.write(line.data(), static_cast<std::streamsize>(line.size()));
   }
-  if (!o) throw InputError(path + ": writing failed");
-  out.commit();
+};
+
+RunCsv::RunCsv(const std::string& path, const std::vector<std::string>& states, const std::vector<std::string>& outputs)
+    : impl_(std::make_unique<Impl>(path)) {
+  std::string header = "t";
+  for (const auto& s : states) header += "," + s;
+  for (const auto& s : outputs) header += "," + s;
+  header += "\n";
+  impl_->out.stream() << header;
+}
+
+RunCsv::~RunCsv() = default;
+
+void RunCsv::row(double t, const Eigen::Ref<const Eigen::VectorXd>& x, const Eigen::Ref<const Eigen::VectorXd>& y) {
+  Impl& m = *impl_;
+  m.line.clear();
+  m.put(t);
+  for (Eigen::Index j = 0; j < x.size(); ++j) m.line.push_back(','), m.put(x(j));
+  for (Eigen::Index j = 0; j < y.size(); ++j) m.line.push_back(','), m.put(y(j));
+  m.line.push_back('\n');
+  m.out.stream().write(m.line.data(), static_cast<std::streamsize>(m.line.size()));
+}
+
+void RunCsv::commit() {
+  if (!impl_->out.stream()) throw InputError(impl_->path + ": writing failed");
+  impl_->out.commit();
+}
+
+void write_run_csv(const std::string& path, const RespondReport& report, const RunResult& run) {
+  RunCsv csv(path, report.states, report.outputs);
+  for (Eigen::Index k = 0; k < run.states.rows(); ++k)
+    csv.row(run.times[static_cast<std::size_t>(k)], run.states.row(k).transpose(), run.outputs.row(k).transpose());
+  csv.commit();
 }
 
 std::string RespondReport::brief() const {
@@ -429,7 +483,7 @@ std::string RespondReport::brief() const {
   for (std::size_t i = 0; i < rep.runs.size(); ++i) {
     const RunResult& r = rep.runs[i];
     s << "run " << i + 1 << (r.source.empty() ? " (free response)" : ": " + r.source) << "  t = " << r.t0
-      << " .. " << r.t1 << ", " << r.times.size() << " samples\n";
+      << " .. " << r.t1 << ", " << r.samples << " samples\n";
     s << "  x(t1): " << vec(r.x_final, states) << "\n";
     if (r.y_final.size()) s << "  y(t1): " << vec(r.y_final, outputs) << "\n";
   }

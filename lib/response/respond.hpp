@@ -10,6 +10,7 @@
 // restarted at every knot.
 #include <Eigen/Dense>
 #include <functional>
+#include <memory>
 #include <optional>
 #include <string>
 #include <utility>
@@ -33,6 +34,20 @@ enum class ResponsePath {
 std::string response_path_name(ResponsePath p);
 /// Inverse of response_path_name; throws InputError "RespondOptions::path: unknown path ...".
 ResponsePath parse_response_path(const std::string& name);
+
+/// One output sample of one run, as RespondOptions::sink receives it.
+struct ResponseSample {
+  std::size_t run = 0;    ///< index of the history (in the order given; 0 for a free response)
+  std::size_t k = 0;      ///< index of the output time in the run: 0, 1, ..., count - 1
+  std::size_t count = 0;  ///< output times of the run in all (k == count - 1 is its last)
+  double t = 0;           ///< the output time
+  Eigen::VectorXd x;      ///< the state x(t), n entries
+  Eigen::VectorXd y;      ///< the output y(t) = C x + D u, p entries
+};
+/// Receives each output sample as it is computed. Within a run the samples come in order of
+/// time; runs that share a time grid are advanced together, so their samples interleave (each
+/// run's own order is kept). An exception thrown here stops the job and propagates.
+using ResponseSink = std::function<void(const ResponseSample&)>;
 
 struct RespondOptions {
   /// How the input is held between samples; default Hold::Linear.
@@ -65,6 +80,12 @@ struct RespondOptions {
   Eigen::VectorXd x0;
   /// Called now and then with the fraction of the work done; may be empty (default).
   std::function<void(double)> progress;
+  /// Where the samples go; default empty: into the report's runs (times, states, outputs).
+  /// When set, every sample goes to the sink as it is computed and the report keeps only each
+  /// run's summary (window, samples, x_final, y_final), so memory does not grow with the number
+  /// of output times (the exact path; the direct path holds one run's states at a time, for
+  /// its accuracy check).
+  ResponseSink sink;
 
   /// Throws InputError naming the field ("RespondOptions::x0: 3 entries, the model has 2
   /// states") when a field is out of range for SYS.
@@ -75,9 +96,10 @@ struct RespondOptions {
 struct RunResult {
   std::string source;       ///< the history's source (input file), empty for a free response
   double t0 = 0, t1 = 0;    ///< window
-  std::vector<double> times;  ///< output times
-  Eigen::MatrixXd states;   ///< times x n
-  Eigen::MatrixXd outputs;  ///< times x p: y = C x + D u
+  std::size_t samples = 0;  ///< number of output times (also when they went to a sink)
+  std::vector<double> times;  ///< output times (empty when RespondOptions::sink took them)
+  Eigen::MatrixXd states;   ///< times x n (0 rows with a sink)
+  Eigen::MatrixXd outputs;  ///< times x p: y = C x + D u (0 rows with a sink)
   Eigen::VectorXd x_final;  ///< x(t1)
   Eigen::VectorXd y_final;  ///< y(t1)
 };
@@ -120,7 +142,26 @@ RespondReport respond(const System& sys, const std::vector<InputHistory>& histor
 /// A history with no inputs spanning [t0, t1]: the free response of a model without inputs.
 InputHistory free_response_history(double t0, double t1);
 
-/// Writes RUN as CSV `t,<state names>,<output names>` (atomic).
+/// A run's CSV `t,<state names>,<output names>`, written one sample at a time (from
+/// RespondOptions::sink) into a temporary that commit() renames into place (io/output_file.hpp).
+class RunCsv {
+ public:
+  /// Opens the temporary for PATH and writes the header row.
+  RunCsv(const std::string& path, const std::vector<std::string>& states, const std::vector<std::string>& outputs);
+  ~RunCsv();
+  RunCsv(const RunCsv&) = delete;
+  RunCsv& operator=(const RunCsv&) = delete;
+  /// One row: T, then X, then Y.
+  void row(double t, const Eigen::Ref<const Eigen::VectorXd>& x, const Eigen::Ref<const Eigen::VectorXd>& y);
+  /// Renames the file into place; throws InputError naming it when writing failed.
+  void commit();
+
+ private:
+  struct Impl;
+  std::unique_ptr<Impl> impl_;
+};
+
+/// Writes RUN (kept in the report: no sink) as CSV `t,<state names>,<output names>` (atomic).
 void write_run_csv(const std::string& path, const RespondReport& report, const RunResult& run);
 
 }  // namespace ordex

@@ -5,9 +5,9 @@ only the interrupt ends it early, and as KeyboardInterrupt."""
 import os
 import signal
 import threading
-import unittest
 
 import numpy as np
+import pytest
 
 import ordex
 
@@ -21,23 +21,19 @@ def interrupt_soon():
 LONG = dict(max_step=1e-3, max_steps=5 * 10 ** 7, use_period=False)
 
 
-class Interrupt(unittest.TestCase):
-    def test_model_file(self):
-        sys = ordex.load_model(os.path.join(MODELS, "mathieu.toml"))
-        with self.assertRaises(KeyboardInterrupt):
-            interrupt_soon()
-            ordex.transition(sys, 0.0, 4e4, **LONG)
-        phi = ordex.transition(sys, 0.0, 1.0).phi
-        self.assertAlmostEqual(np.linalg.det(phi), 1.0, places=7)  # trace A = 0 (Liouville)
-
-    def test_callable(self):
-        sys = ordex.System.from_callables(["x", "v"], A=lambda t: np.array([[0.0, 1.0], [-1.0, 0.0]]))
-        with self.assertRaises(KeyboardInterrupt):
-            interrupt_soon()
-            ordex.transition(sys, 0.0, 4e4, **LONG)
-        phi = ordex.transition(sys, 0.0, 1.0).phi
-        np.testing.assert_allclose(phi, [[np.cos(1), np.sin(1)], [-np.sin(1), np.cos(1)]], atol=1e-8)
+def test_model_file():
+    sys = ordex.load_model(os.path.join(MODELS, "mathieu.toml"))
+    with pytest.raises(KeyboardInterrupt):
+        interrupt_soon()
+        ordex.transition(sys, 0.0, 4e4, **LONG)
+    phi = ordex.transition(sys, 0.0, 1.0).phi
+    assert abs(np.linalg.det(phi) - 1.0) < 1e-7  # trace A = 0 (Liouville)
 
 
-if __name__ == "__main__":
-    unittest.main()
+def test_callable():
+    sys = ordex.System.from_callables(["x", "v"], A=lambda t: np.array([[0.0, 1.0], [-1.0, 0.0]]))
+    with pytest.raises(KeyboardInterrupt):
+        interrupt_soon()
+        ordex.transition(sys, 0.0, 4e4, **LONG)
+    phi = ordex.transition(sys, 0.0, 1.0).phi
+    np.testing.assert_allclose(phi, [[np.cos(1), np.sin(1)], [-np.sin(1), np.cos(1)]], atol=1e-8)

@@ -7,12 +7,11 @@ numbers (read back from the matplotlib Figure) and obey outside checks:
 Run by ctest as plot_figures; the apps come from ORDEX_BIN_DIR."""
 import json
 import os
-import tempfile
 import tomllib
-import unittest
 import xml.etree.ElementTree as ET
 
 import numpy as np
+import pytest
 import scipy.linalg
 
 from plot_support import DATA, MODELS, load_plot_module, read_csv, run, write_input
@@ -24,256 +23,264 @@ def lines_of(ax):
     return [(np.asarray(l.get_xdata(), float), np.asarray(l.get_ydata(), float), l.get_label()) for l in ax.get_lines()]
 
 
-class PlotFigures(unittest.TestCase):
-    @classmethod
-    def setUpClass(cls):
-        cls.tmp = tempfile.TemporaryDirectory()
-        d = cls.dir = cls.tmp.name
-        mathieu = os.path.join(MODELS, "mathieu.toml")
-        run(["ordex-propagate", "--model", mathieu, "--csv", f"{d}/phi.csv", "--samples", 41, "--json", f"{d}/phi.json"])
-        run(["ordex-propagate", "--model", mathieu, "--floquet", "--set", "q=1.4", "--json", f"{d}/floquet.json"])
-        run(["ordex-gramian", "--model", os.path.join(MODELS, "orbit_relative_motion.toml"), "--window-length", 1500,
-             "--csv", f"{d}/profile.csv", "--json", f"{d}/profile.json"])
-        run(["ordex-regulate", "--model", os.path.join(DATA, "riccati_tv.toml"), "--weights",
-             os.path.join(DATA, "riccati_tv_weights.toml"), "--samples", 31, "--csv", f"{d}/K.csv",
-             "--json", f"{d}/regulate.json"])
-        t = np.linspace(0, 6, 61)
-        write_input(f"{d}/steady.csv", t, [np.ones_like(t), 0.5 * np.ones_like(t)], ["t", "u1", "u2"])
-        write_input(f"{d}/swept.csv", t, [np.sin(t), np.cos(2 * t)], ["t", "u1", "u2"])
-        os.mkdir(f"{d}/runs")
-        run(["ordex-respond", "--model", os.path.join(DATA, "response_pumped.toml"), "--input", f"{d}/steady.csv",
-             "--input", f"{d}/swept.csv", "--x0", "0.2,0", "--csv", f"{d}/runs", "--json", f"{d}/respond.json"])
-        cls.constant = os.path.join(DATA, "response_constant.toml")
-        run(["ordex-discretize", "--model", cls.constant, "--from", 0, "--to", 4, "--step", 0.25,
-             "--csv", f"{d}/discrete.csv", "--json", f"{d}/discrete.json"])
-        run(["ordex-sweep", "--model", mathieu, "--job", "floquet", "--grid", "a=0.2:2.2:6", "--grid", "q=0:1.5:4",
-             "--csv", f"{d}/chart.csv"])
-        run(["ordex-simulate", "--model", os.path.join(MODELS, "chaser_two_body.toml"), "--runs", 5, "--seed", 2,
-             "--disperse", os.path.join(MODELS, "chaser_dispersions.toml"), "--json", f"{d}/simulate.json"])
-        run(["ordex-estimate", "--model", os.path.join(MODELS, "sled_depth.toml"), "--noise",
-             os.path.join(MODELS, "sled_depth_noise.toml"), "--samples", 21, "--json", f"{d}/estimate.json"])
+CONSTANT = os.path.join(DATA, "response_constant.toml")
 
-    @classmethod
-    def tearDownClass(cls):
-        cls.tmp.cleanup()
 
-    def path(self, name):
-        return os.path.join(self.dir, name)
+@pytest.fixture(scope="module")
+def folder(tmp_path_factory):
+    """Every kind of result, written by the apps once for the module."""
+    d = str(tmp_path_factory.mktemp("figures"))
+    mathieu = os.path.join(MODELS, "mathieu.toml")
+    run(["ordex-propagate", "--model", mathieu, "--csv", f"{d}/phi.csv", "--samples", 41, "--json", f"{d}/phi.json"])
+    run(["ordex-propagate", "--model", mathieu, "--floquet", "--set", "q=1.4", "--json", f"{d}/floquet.json"])
+    run(["ordex-gramian", "--model", os.path.join(MODELS, "orbit_relative_motion.toml"), "--window-length", 1500,
+         "--csv", f"{d}/profile.csv", "--json", f"{d}/profile.json"])
+    run(["ordex-regulate", "--model", os.path.join(DATA, "riccati_tv.toml"), "--weights",
+         os.path.join(DATA, "riccati_tv_weights.toml"), "--samples", 31, "--csv", f"{d}/K.csv",
+         "--json", f"{d}/regulate.json"])
+    t = np.linspace(0, 6, 61)
+    write_input(f"{d}/steady.csv", t, [np.ones_like(t), 0.5 * np.ones_like(t)], ["t", "u1", "u2"])
+    write_input(f"{d}/swept.csv", t, [np.sin(t), np.cos(2 * t)], ["t", "u1", "u2"])
+    os.mkdir(f"{d}/runs")
+    run(["ordex-respond", "--model", os.path.join(DATA, "response_pumped.toml"), "--input", f"{d}/steady.csv",
+         "--input", f"{d}/swept.csv", "--x0", "0.2,0", "--csv", f"{d}/runs", "--json", f"{d}/respond.json"])
+    run(["ordex-discretize", "--model", CONSTANT, "--from", 0, "--to", 4, "--step", 0.25,
+         "--csv", f"{d}/discrete.csv", "--json", f"{d}/discrete.json"])
+    run(["ordex-sweep", "--model", mathieu, "--job", "floquet", "--grid", "a=0.2:2.2:6", "--grid", "q=0:1.5:4",
+         "--csv", f"{d}/chart.csv"])
+    run(["ordex-simulate", "--model", os.path.join(MODELS, "chaser_two_body.toml"), "--runs", 5, "--seed", 2,
+         "--disperse", os.path.join(MODELS, "chaser_dispersions.toml"), "--json", f"{d}/simulate.json"])
+    run(["ordex-estimate", "--model", os.path.join(MODELS, "sled_depth.toml"), "--noise",
+         os.path.join(MODELS, "sled_depth_noise.toml"), "--samples", 21, "--json", f"{d}/estimate.json"])
+    return d
 
-    def test_kinds_are_recognised(self):
-        expect = {"phi.csv": "transition", "phi.json": "transition", "floquet.json": "floquet",
-                  "profile.csv": "gramian_profile", "profile.json": "gramian", "K.csv": "gain_schedule",
-                  "regulate.json": "gain_schedule", "runs/steady.csv": "response", "respond.json": "response_summary",
-                  "discrete.csv": "discrete", "discrete.json": "discrete"}
-        for name, kind in expect.items():
-            self.assertEqual(plot.kind_of(self.path(name)), kind, name)
 
-    def test_transition_singular_values_obey_liouville(self):
-        header, values = read_csv(self.path("phi.csv"))
-        fig = plot.plot(self.path("phi.csv"))
-        ax = fig.axes[0]
+def path(folder, name):
+    return os.path.join(folder, name)
+
+
+def test_kinds_are_recognised(folder):
+    expect = {"phi.csv": "transition", "phi.json": "transition", "floquet.json": "floquet",
+              "profile.csv": "gramian_profile", "profile.json": "gramian", "K.csv": "gain_schedule",
+              "regulate.json": "gain_schedule", "runs/steady.csv": "response", "respond.json": "response_summary",
+              "discrete.csv": "discrete", "discrete.json": "discrete"}
+    for name, kind in expect.items():
+        assert plot.kind_of(path(folder, name)) == kind, name
+
+
+def test_transition_singular_values_obey_liouville(folder):
+    header, values = read_csv(path(folder, "phi.csv"))
+    fig = plot.plot(path(folder, "phi.csv"))
+    ax = fig.axes[0]
+    lines = lines_of(ax)
+    assert len(lines) == 2
+    for x, _, _ in lines:
+        np.testing.assert_array_equal(x, values[:, 0])
+    # Liouville: |det Phi| = exp(int_0^t trace A) = 1 for x'' + k(t) x = 0 (trace A = 0), and
+    # |det| is the product of the singular values.
+    np.testing.assert_allclose(lines[0][1] * lines[1][1], 1.0, rtol=1e-6)
+    assert ax.get_yscale() == "log"
+    assert ax.get_xlabel() == "t"
+
+
+def test_transition_entries(folder):
+    header, values = read_csv(path(folder, "phi.csv"))
+    ax = plot.plot(path(folder, "phi.csv"), entries=["1_1", "phi_2_1"]).axes[0]
+    lines = lines_of(ax)
+    assert [l[2] for l in lines] == ["phi_1_1", "phi_2_1"]
+    np.testing.assert_array_equal(lines[0][1], values[:, header.index("phi_1_1")])
+    np.testing.assert_array_equal(lines[1][1], values[:, header.index("phi_2_1")])
+    # Mathieu with a = 1, q = 0.5 at t = 0: Phi = I; its entries start at the identity.
+    assert lines[0][1][0] == 1.0
+    assert lines[1][1][0] == 0.0
+
+
+def test_floquet_unit_circle_and_multipliers(folder):
+    with open(path(folder, "floquet.json")) as f:
+        data = json.load(f)
+    ax = plot.plot(path(folder, "floquet.json")).axes[0]
+    circle = [l for l in ax.get_lines() if l.get_label() == "unit circle"]
+    assert len(circle) == 1
+    x, y = np.asarray(circle[0].get_xdata()), np.asarray(circle[0].get_ydata())
+    np.testing.assert_allclose(np.hypot(x, y), 1.0, rtol=1e-12)
+    assert np.ptp(np.arctan2(y, x)) > 6.2  # the whole circle
+    points = ax.collections[0].get_offsets()
+    mult = data["floquet"]["multipliers"]
+    np.testing.assert_allclose(points[:, 0], [m["re"] for m in mult], rtol=0, atol=0)
+    np.testing.assert_allclose(points[:, 1], [m["im"] for m in mult], rtol=0, atol=0)
+    np.testing.assert_allclose(np.hypot(points[:, 0], points[:, 1]), [m["abs"] for m in mult], rtol=1e-12)
+    # Liouville over one period: mu_1 mu_2 = det(monodromy) = 1 (trace A = 0).
+    prod = complex(*points[0]) * complex(*points[1])
+    assert round(abs(abs(prod) - 1.0), 6) == 0
+    # q = 1.4, a = 1 lies in the first instability tongue of Mathieu's chart (Abramowitz &
+    # Stegun fig. 20.1, recalled from memory): one multiplier outside the unit circle.
+    assert max(np.hypot(points[:, 0], points[:, 1])) > 1.0
+    assert not data["floquet"]["stable"]
+
+
+def test_sweep_chart_is_the_table_on_its_grid(folder):
+    with open(path(folder, "chart.csv")) as f:
+        header = f.readline().strip().split(",")
+        rows = [line.rstrip("\n").split(",") for line in f]
+    assert header[-1] == "error"
+    assert all(r[-1] == "" for r in rows)
+    table = {name: np.array([float(r[i]) for r in rows]) for i, name in enumerate(header[:-1])}
+    assert plot.kind_of(path(folder, "chart.csv")) == "sweep"
+    fig = plot.plot(path(folder, "chart.csv"))
+    ax = fig.axes[0]
+    assert (ax.get_xlabel(), ax.get_ylabel()) == ("a", "q")
+    mesh = ax.collections[0]
+    # The grid's first parameter varies slowest: the chart's rows are q, its columns a.
+    z = np.asarray(mesh.get_array()).reshape(4, 6)
+    np.testing.assert_array_equal(z, np.asarray(table["max_abs_multiplier"]).reshape(6, 4).T)
+    # Mathieu's equation (trace A = 0): det M = 1, so max |mu| >= 1 at every point, and q = 0
+    # (the free oscillator) sits on the unit circle.
+    assert np.all(z >= 1 - 1e-9)
+    np.testing.assert_allclose(z[0], 1.0, atol=1e-7)
+
+
+def test_simulate_runs_are_the_summary_numbers(folder):
+    with open(path(folder, "simulate.json")) as f:
+        data = json.load(f)
+    assert plot.kind_of(data) == "simulate"
+    top, bottom = plot.plot(path(folder, "simulate.json")).axes[:2]
+    peak = top.get_lines()[0]
+    np.testing.assert_array_equal(peak.get_xdata(), np.arange(1, 6))
+    np.testing.assert_array_equal(peak.get_ydata(), [r["peak_deviation"] for r in data["runs"]])
+    final, gap = bottom.get_lines()[:2]
+    np.testing.assert_allclose(final.get_ydata(), [np.linalg.norm(r["dx_final"]) for r in data["runs"]],
+                               rtol=1e-15)
+    np.testing.assert_array_equal(gap.get_ydata(), [r["linear_gap"] for r in data["runs"]])
+    # A peak deviation is at least the final one (the peak is over the run, the end included).
+    assert np.all(peak.get_ydata() >= final.get_ydata() * (1 - 1e-12))
+
+
+def test_filter_gain_schedule_from_the_estimator_json(folder):
+    with open(path(folder, "estimate.json")) as f:
+        data = json.load(f)
+    assert plot.kind_of(data) == "gain_schedule"
+    ax = plot.plot(path(folder, "estimate.json")).axes[0]
+    L = np.array(data["gain_schedule"]["L"])
+    lines = ax.get_lines()
+    assert len(lines) == (L.shape[1] * L.shape[2])
+    np.testing.assert_array_equal(lines[0].get_xdata(), data["gain_schedule"]["times"])
+    np.testing.assert_array_equal(lines[0].get_ydata(), L[:, 0, 0])
+    assert "L(t)" in ax.get_ylabel()
+
+
+def test_gramian_profile_from_csv_and_json(folder):
+    header, values = read_csv(path(folder, "profile.csv"))
+    ax = plot.plot(path(folder, "profile.csv")).axes[0]
+    lines = {l[2]: l for l in lines_of(ax)}
+    np.testing.assert_array_equal(lines["lambda_min"][1], values[:, header.index("lambda_min")])
+    np.testing.assert_array_equal(lines["lambda_max"][1], values[:, header.index("lambda_max")])
+    np.testing.assert_array_equal(lines["lambda_min"][0], values[:, 0])
+    assert "window" in ax.get_xlabel()
+    # Every window has the length asked for, and lambda_min <= lambda_max.
+    np.testing.assert_allclose(values[:, 1] - values[:, 0], 1500, rtol=1e-12)
+    assert np.all(values[:, header.index("lambda_min")] <= values[:, header.index("lambda_max")])
+    # The summary: the whole window's eigenvalues, ascending, as points.
+    with open(path(folder, "profile.json")) as f:
+        data = json.load(f)
+    points = plot.plot(data).axes[0].get_lines()[0]
+    np.testing.assert_array_equal(points.get_ydata(), np.abs(data["eigenvalues"]))
+    np.testing.assert_array_equal(points.get_xdata(), np.arange(1, 7))
+
+
+def test_gain_schedule_labels_and_data(folder):
+    header, values = read_csv(path(folder, "K.csv"))
+    ax = plot.plot(path(folder, "K.csv")).axes[0]
+    lines = lines_of(ax)
+    assert [l[2] for l in lines] == (header[1:])
+    for (x, y, _), j in zip(lines, range(1, len(header))):
+        np.testing.assert_array_equal(x, values[:, 0])
+        np.testing.assert_array_equal(y, values[:, j])
+    with open(path(folder, "regulate.json")) as f:
+        data = json.load(f)
+    ax = plot.plot(data).axes[0]
+    names = ["K[%s, %s]" % (u, x) for u in data["inputs"] for x in data["states"]]
+    assert [l.get_label() for l in ax.get_lines()] == names
+    np.testing.assert_allclose(ax.get_lines()[0].get_ydata(), values[:, 1], rtol=1e-15)
+
+
+def test_responses_overlaid(folder):
+    runs = [path(folder, "runs/steady.csv"), path(folder, "runs/swept.csv")]
+    fig = plot.plot(runs)
+    header, first = read_csv(runs[0])
+    _, second = read_csv(runs[1])
+    assert header == ["t", "x1", "x2", "y"]  # states then outputs, the model's names
+    assert [ax.get_ylabel() for ax in fig.axes] == (header[1:])
+    for j, ax in enumerate(fig.axes, start=1):
         lines = lines_of(ax)
-        self.assertEqual(len(lines), 2)
-        for x, _, _ in lines:
-            np.testing.assert_array_equal(x, values[:, 0])
-        # Liouville: |det Phi| = exp(int_0^t trace A) = 1 for x'' + k(t) x = 0 (trace A = 0), and
-        # |det| is the product of the singular values.
-        np.testing.assert_allclose(lines[0][1] * lines[1][1], 1.0, rtol=1e-6)
-        self.assertEqual(ax.get_yscale(), "log")
-        self.assertEqual(ax.get_xlabel(), "t")
-
-    def test_transition_entries(self):
-        header, values = read_csv(self.path("phi.csv"))
-        ax = plot.plot(self.path("phi.csv"), entries=["1_1", "phi_2_1"]).axes[0]
-        lines = lines_of(ax)
-        self.assertEqual([l[2] for l in lines], ["phi_1_1", "phi_2_1"])
-        np.testing.assert_array_equal(lines[0][1], values[:, header.index("phi_1_1")])
-        np.testing.assert_array_equal(lines[1][1], values[:, header.index("phi_2_1")])
-        # Mathieu with a = 1, q = 0.5 at t = 0: Phi = I; its entries start at the identity.
-        self.assertEqual(lines[0][1][0], 1.0)
-        self.assertEqual(lines[1][1][0], 0.0)
-
-    def test_floquet_unit_circle_and_multipliers(self):
-        with open(self.path("floquet.json")) as f:
-            data = json.load(f)
-        ax = plot.plot(self.path("floquet.json")).axes[0]
-        circle = [l for l in ax.get_lines() if l.get_label() == "unit circle"]
-        self.assertEqual(len(circle), 1)
-        x, y = np.asarray(circle[0].get_xdata()), np.asarray(circle[0].get_ydata())
-        np.testing.assert_allclose(np.hypot(x, y), 1.0, rtol=1e-12)
-        self.assertGreater(np.ptp(np.arctan2(y, x)), 6.2)  # the whole circle
-        points = ax.collections[0].get_offsets()
-        mult = data["floquet"]["multipliers"]
-        np.testing.assert_allclose(points[:, 0], [m["re"] for m in mult], rtol=0, atol=0)
-        np.testing.assert_allclose(points[:, 1], [m["im"] for m in mult], rtol=0, atol=0)
-        np.testing.assert_allclose(np.hypot(points[:, 0], points[:, 1]), [m["abs"] for m in mult], rtol=1e-12)
-        # Liouville over one period: mu_1 mu_2 = det(monodromy) = 1 (trace A = 0).
-        prod = complex(*points[0]) * complex(*points[1])
-        self.assertAlmostEqual(abs(prod), 1.0, places=6)
-        # q = 1.4, a = 1 lies in the first instability tongue of Mathieu's chart (Abramowitz &
-        # Stegun fig. 20.1, recalled from memory): one multiplier outside the unit circle.
-        self.assertGreater(max(np.hypot(points[:, 0], points[:, 1])), 1.0)
-        self.assertFalse(data["floquet"]["stable"])
-
-    def test_sweep_chart_is_the_table_on_its_grid(self):
-        with open(self.path("chart.csv")) as f:
-            header = f.readline().strip().split(",")
-            rows = [line.rstrip("\n").split(",") for line in f]
-        self.assertEqual(header[-1], "error")
-        self.assertTrue(all(r[-1] == "" for r in rows))
-        table = {name: np.array([float(r[i]) for r in rows]) for i, name in enumerate(header[:-1])}
-        self.assertEqual(plot.kind_of(self.path("chart.csv")), "sweep")
-        fig = plot.plot(self.path("chart.csv"))
-        ax = fig.axes[0]
-        self.assertEqual((ax.get_xlabel(), ax.get_ylabel()), ("a", "q"))
-        mesh = ax.collections[0]
-        # The grid's first parameter varies slowest: the chart's rows are q, its columns a.
-        z = np.asarray(mesh.get_array()).reshape(4, 6)
-        np.testing.assert_array_equal(z, np.asarray(table["max_abs_multiplier"]).reshape(6, 4).T)
-        # Mathieu's equation (trace A = 0): det M = 1, so max |mu| >= 1 at every point, and q = 0
-        # (the free oscillator) sits on the unit circle.
-        self.assertTrue(np.all(z >= 1 - 1e-9))
-        np.testing.assert_allclose(z[0], 1.0, atol=1e-7)
-
-    def test_simulate_runs_are_the_summary_numbers(self):
-        with open(self.path("simulate.json")) as f:
-            data = json.load(f)
-        self.assertEqual(plot.kind_of(data), "simulate")
-        top, bottom = plot.plot(self.path("simulate.json")).axes[:2]
-        peak = top.get_lines()[0]
-        np.testing.assert_array_equal(peak.get_xdata(), np.arange(1, 6))
-        np.testing.assert_array_equal(peak.get_ydata(), [r["peak_deviation"] for r in data["runs"]])
-        final, gap = bottom.get_lines()[:2]
-        np.testing.assert_allclose(final.get_ydata(), [np.linalg.norm(r["dx_final"]) for r in data["runs"]],
-                                   rtol=1e-15)
-        np.testing.assert_array_equal(gap.get_ydata(), [r["linear_gap"] for r in data["runs"]])
-        # A peak deviation is at least the final one (the peak is over the run, the end included).
-        self.assertTrue(np.all(peak.get_ydata() >= final.get_ydata() * (1 - 1e-12)))
-
-    def test_filter_gain_schedule_from_the_estimator_json(self):
-        with open(self.path("estimate.json")) as f:
-            data = json.load(f)
-        self.assertEqual(plot.kind_of(data), "gain_schedule")
-        ax = plot.plot(self.path("estimate.json")).axes[0]
-        L = np.array(data["gain_schedule"]["L"])
-        lines = ax.get_lines()
-        self.assertEqual(len(lines), L.shape[1] * L.shape[2])
-        np.testing.assert_array_equal(lines[0].get_xdata(), data["gain_schedule"]["times"])
-        np.testing.assert_array_equal(lines[0].get_ydata(), L[:, 0, 0])
-        self.assertIn("L(t)", ax.get_ylabel())
-
-    def test_gramian_profile_from_csv_and_json(self):
-        header, values = read_csv(self.path("profile.csv"))
-        ax = plot.plot(self.path("profile.csv")).axes[0]
-        lines = {l[2]: l for l in lines_of(ax)}
-        np.testing.assert_array_equal(lines["lambda_min"][1], values[:, header.index("lambda_min")])
-        np.testing.assert_array_equal(lines["lambda_max"][1], values[:, header.index("lambda_max")])
-        np.testing.assert_array_equal(lines["lambda_min"][0], values[:, 0])
-        self.assertIn("window", ax.get_xlabel())
-        # Every window has the length asked for, and lambda_min <= lambda_max.
-        np.testing.assert_allclose(values[:, 1] - values[:, 0], 1500, rtol=1e-12)
-        self.assertTrue(np.all(values[:, header.index("lambda_min")] <= values[:, header.index("lambda_max")]))
-        # The summary: the whole window's eigenvalues, ascending, as points.
-        with open(self.path("profile.json")) as f:
-            data = json.load(f)
-        points = plot.plot(data).axes[0].get_lines()[0]
-        np.testing.assert_array_equal(points.get_ydata(), np.abs(data["eigenvalues"]))
-        np.testing.assert_array_equal(points.get_xdata(), np.arange(1, 7))
-
-    def test_gain_schedule_labels_and_data(self):
-        header, values = read_csv(self.path("K.csv"))
-        ax = plot.plot(self.path("K.csv")).axes[0]
-        lines = lines_of(ax)
-        self.assertEqual([l[2] for l in lines], header[1:])
-        for (x, y, _), j in zip(lines, range(1, len(header))):
-            np.testing.assert_array_equal(x, values[:, 0])
-            np.testing.assert_array_equal(y, values[:, j])
-        with open(self.path("regulate.json")) as f:
-            data = json.load(f)
-        ax = plot.plot(data).axes[0]
-        names = ["K[%s, %s]" % (u, x) for u in data["inputs"] for x in data["states"]]
-        self.assertEqual([l.get_label() for l in ax.get_lines()], names)
-        np.testing.assert_allclose(ax.get_lines()[0].get_ydata(), values[:, 1], rtol=1e-15)
-
-    def test_responses_overlaid(self):
-        runs = [self.path("runs/steady.csv"), self.path("runs/swept.csv")]
-        fig = plot.plot(runs)
-        header, first = read_csv(runs[0])
-        _, second = read_csv(runs[1])
-        self.assertEqual(header, ["t", "x1", "x2", "y"])  # states then outputs, the model's names
-        self.assertEqual([ax.get_ylabel() for ax in fig.axes], header[1:])
-        for j, ax in enumerate(fig.axes, start=1):
-            lines = lines_of(ax)
-            self.assertEqual(len(lines), 2)
-            np.testing.assert_array_equal(lines[0][1], first[:, j])
-            np.testing.assert_array_equal(lines[1][1], second[:, j])
-        self.assertEqual(fig.axes[0].get_lines()[0].get_ydata()[0], 0.2)  # x1(0) = --x0
-        labelled = plot.plot_responses(runs[0], units={"t": "s", "x1": "m"})
-        self.assertEqual([ax.get_ylabel() for ax in labelled.axes], ["x1 [m]", "x2", "y"])
-        self.assertEqual(labelled.axes[-1].get_xlabel(), "t [s]")
-        with open(self.path("regulate.json")) as f:
-            summary = json.load(f)
-        self.assertEqual(plot.plot(summary).axes[0].get_xlabel(), "t")
-        summary["model"]["units"] = {"t": "s"}  # units declared in a summary's header label the axes
-        self.assertEqual(plot.plot(summary).axes[0].get_xlabel(), "t [s]")
-        one = plot.plot(runs[0], columns=["y"])
-        self.assertEqual(len(one.axes), 1)
-        self.assertEqual(one.axes[0].get_ylabel(), "y")
-
-    def test_discrete_growth_matches_expm(self):
-        with open(self.constant, "rb") as f:
-            A = np.array(tomllib.load(f)["matrices"]["A"], float)
-        for source in ("discrete.csv", "discrete.json"):
-            ax = plot.plot(self.path(source)).axes[0]
-            total = [l for l in ax.get_lines() if l.get_label().startswith("|Phi(t_k")][0]
-            step = [l for l in ax.get_lines() if l.get_label().startswith("|Phi_k|")][0]
-            t = np.asarray(total.get_xdata())
-            np.testing.assert_allclose(t, np.arange(1, 17) * 0.25, rtol=1e-14)
-            # Outside reference: scipy's matrix exponential of the constant plant.
-            expect = [np.linalg.norm(scipy.linalg.expm(A * tk), 2) for tk in t]
-            np.testing.assert_allclose(total.get_ydata(), expect, rtol=1e-7)
-            one_step = np.linalg.norm(scipy.linalg.expm(A * 0.25), 2)
-            np.testing.assert_allclose(step.get_ydata(), one_step, rtol=1e-7)
-
-    def test_figure_files(self):
-        signatures = {"png": b"\x89PNG\r\n\x1a\n", "pdf": b"%PDF"}
-        for fmt in ("svg", "png", "pdf"):
-            out = self.path("floquet." + fmt)
-            plot.save(plot.plot(self.path("floquet.json")), out)
-            with open(out, "rb") as f:
-                data = f.read()
-            self.assertGreater(len(data), 1000)
-            if fmt == "svg":
-                root = ET.fromstring(data)
-                self.assertTrue(root.tag.endswith("svg"))
-                texts = " ".join("".join(e.itertext()) for e in root.iter() if e.tag.endswith("text"))
-                self.assertIn("Re mu", texts)  # text kept as text: labels are searchable
-                self.assertIn("Im mu", texts)
-            else:
-                self.assertTrue(data.startswith(signatures[fmt]))
-        self.assertEqual([f for f in os.listdir(self.dir) if f.endswith(".tmp")], [])
-
-    def test_bad_input_is_one_line(self):
-        bad = self.path("bad.csv")
-        with open(bad, "w") as f:
-            f.write("alpha,beta\n1,2\n")
-        with self.assertRaises(plot.PlotInputError) as e:
-            plot.plot(bad)
-        self.assertIn(bad, str(e.exception))
-        self.assertNotIn("\n", str(e.exception))
-        with open(bad, "w") as f:
-            f.write("t,x\n0,1\n1,oops\n")
-        with self.assertRaisesRegex(plot.PlotInputError, r"bad\.csv:3: 'oops' is not a number"):
-            plot.plot(bad)
-        with self.assertRaisesRegex(plot.PlotInputError, "not an ordex result"):
-            plot.plot({"app": "something", "value": 1})
-        with self.assertRaisesRegex(plot.PlotInputError, "no entry"):
-            plot.plot(self.path("phi.csv"), entries=["3_3"])
-        with self.assertRaisesRegex(plot.PlotInputError, r"\.svg, \.png or \.pdf"):
-            plot.save(plot.plot(self.path("phi.csv")), self.path("figure.jpg"))
-        with self.assertRaisesRegex(plot.PlotInputError, "input of this run"):
-            plot.save(plot.plot(self.path("phi.csv")), self.path("phi.csv"), inputs=[self.path("phi.csv")])
+        assert len(lines) == 2
+        np.testing.assert_array_equal(lines[0][1], first[:, j])
+        np.testing.assert_array_equal(lines[1][1], second[:, j])
+    assert fig.axes[0].get_lines()[0].get_ydata()[0] == 0.2  # x1(0) = --x0
+    labelled = plot.plot_responses(runs[0], units={"t": "s", "x1": "m"})
+    assert [ax.get_ylabel() for ax in labelled.axes] == ["x1 [m]", "x2", "y"]
+    assert labelled.axes[-1].get_xlabel() == "t [s]"
+    with open(path(folder, "regulate.json")) as f:
+        summary = json.load(f)
+    assert plot.plot(summary).axes[0].get_xlabel() == "t"
+    summary["model"]["units"] = {"t": "s"}  # units declared in a summary's header label the axes
+    assert plot.plot(summary).axes[0].get_xlabel() == "t [s]"
+    one = plot.plot(runs[0], columns=["y"])
+    assert len(one.axes) == 1
+    assert one.axes[0].get_ylabel() == "y"
 
 
-if __name__ == "__main__":
-    unittest.main()
+def test_discrete_growth_matches_expm(folder):
+    with open(CONSTANT, "rb") as f:
+        A = np.array(tomllib.load(f)["matrices"]["A"], float)
+    for source in ("discrete.csv", "discrete.json"):
+        ax = plot.plot(path(folder, source)).axes[0]
+        total = [l for l in ax.get_lines() if l.get_label().startswith("|Phi(t_k")][0]
+        step = [l for l in ax.get_lines() if l.get_label().startswith("|Phi_k|")][0]
+        t = np.asarray(total.get_xdata())
+        np.testing.assert_allclose(t, np.arange(1, 17) * 0.25, rtol=1e-14)
+        # Outside reference: scipy's matrix exponential of the constant plant.
+        expect = [np.linalg.norm(scipy.linalg.expm(A * tk), 2) for tk in t]
+        np.testing.assert_allclose(total.get_ydata(), expect, rtol=1e-7)
+        one_step = np.linalg.norm(scipy.linalg.expm(A * 0.25), 2)
+        np.testing.assert_allclose(step.get_ydata(), one_step, rtol=1e-7)
+
+
+def test_figure_files(folder):
+    signatures = {"png": b"\x89PNG\r\n\x1a\n", "pdf": b"%PDF"}
+    for fmt in ("svg", "png", "pdf"):
+        out = path(folder, "floquet." + fmt)
+        plot.save(plot.plot(path(folder, "floquet.json")), out)
+        with open(out, "rb") as f:
+            data = f.read()
+        assert len(data) > 1000
+        if fmt == "svg":
+            root = ET.fromstring(data)
+            assert root.tag.endswith("svg")
+            texts = " ".join("".join(e.itertext()) for e in root.iter() if e.tag.endswith("text"))
+            assert "Re mu" in texts  # text kept as text: labels are searchable
+            assert "Im mu" in texts
+        else:
+            assert data.startswith(signatures[fmt])
+    assert [f for f in os.listdir(folder) if f.endswith(".tmp")] == []
+
+
+def test_bad_input_is_one_line(folder):
+    bad = path(folder, "bad.csv")
+    with open(bad, "w") as f:
+        f.write("alpha,beta\n1,2\n")
+    with pytest.raises(plot.PlotInputError) as e:
+        plot.plot(bad)
+    assert bad in str(e.value)
+    assert "\n" not in str(e.value)
+    with open(bad, "w") as f:
+        f.write("t,x\n0,1\n1,oops\n")
+    with pytest.raises(plot.PlotInputError, match=r"bad\.csv:3: 'oops' is not a number"):
+        plot.plot(bad)
+    with pytest.raises(plot.PlotInputError, match="not an ordex result"):
+        plot.plot({"app": "something", "value": 1})
+    with pytest.raises(plot.PlotInputError, match="no entry"):
+        plot.plot(path(folder, "phi.csv"), entries=["3_3"])
+    with pytest.raises(plot.PlotInputError, match=r"\.svg, \.png or \.pdf"):
+        plot.save(plot.plot(path(folder, "phi.csv")), path(folder, "figure.jpg"))
+    with pytest.raises(plot.PlotInputError, match="input of this run"):
+        plot.save(plot.plot(path(folder, "phi.csv")), path(folder, "phi.csv"), inputs=[path(folder, "phi.csv")])

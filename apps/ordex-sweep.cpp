@@ -15,6 +15,7 @@
 #include <thread>
 
 #include "common/front_end.hpp"
+#include "common/hdf5_output.hpp"
 #include "common/job_options.hpp"
 #include "io/errors.hpp"
 #include "io/input_file.hpp"
@@ -46,7 +47,9 @@ const char* const kAbout =
     "the point succeeded; a failing point is recorded and the sweep goes on). Numbers are printed in their "
     "shortest round-trip form, so the table is the same byte for byte whatever --threads or the number of MPI ranks. Rows go to "
     "PATH.partial as they complete, in order; PATH appears when the sweep is done. --resume continues an "
-    "interrupted sweep from PATH.partial (or PATH) instead of computing its rows again.\n"
+    "interrupted sweep from PATH.partial (or PATH) instead of computing its rows again. --hdf5 writes the same "
+    "table as HDF5 (one dataset per column, the summary's header as attributes; docs/sweep.md), complete when the "
+    "sweep is done.\n"
     "Under mpirun -np N (N > 1) rank 0 hands out points and writes the table, the other ranks compute; "
     "otherwise --threads threads compute. Progress (points done of the total) goes to standard error.\n"
     "Exit status: 0 done (also when points failed: see the error column and the summary's failed), 2 bad "
@@ -78,6 +81,7 @@ struct Sweep {
   std::string job;
   std::vector<std::string> grid;
   std::string sample;
+  std::string hdf5;
   long runs = 0;
   unsigned long long seed = 1;
   int threads = 1;
@@ -121,6 +125,8 @@ bool build_sweep(int argc, char** argv, Sweep& s) {
        "(without mpirun)")
       ("resume", po::bool_switch(&s.resume), "continue from the rows of an interrupted sweep in --csv's "
        "PATH.partial (or PATH) instead of computing them again");
+  add_hdf5_option(desc, s.hdf5, "the table: one dataset per column, named as in the CSV (the parameters and key "
+                                "figures: numbers, one per point in point order; error: texts)");
   const std::string job = job_from_argv(argc, argv);
   po::options_description job_desc("Options of --job " + job);
   if (job == "gramian") add_gramian_options(job_desc, gramian_flags, gramian_options);
@@ -286,6 +292,7 @@ class TableOutput {
       }
     }
     resumed_ = kept.size();
+    kept_ = kept;
     if (path_ == "-") {
       out_ = &std::cout;
     } else {
@@ -298,6 +305,8 @@ class TableOutput {
     flush();
   }
   std::size_t resumed() const { return resumed_; }
+  /// The rows taken over from the interrupted sweep (points 0, 1, ...).
+  const std::vector<std::string>& kept() const { return kept_; }
   void write(const std::string& row) {
     if (!out_) return;
     *out_ << row << "\n";
@@ -320,12 +329,52 @@ class TableOutput {
   std::ofstream file_;
   std::ostream* out_ = nullptr;
   std::size_t resumed_ = 0;
+  std::vector<std::string> kept_;
+};
+
+/// The table as HDF5 (--hdf5): one dataset per column of the CSV, the numbers appended as the
+/// rows come (in point order), the error texts and the summary's attributes written at the end.
+class Hdf5Table {
+ public:
+  Hdf5Table(const std::string& path, const std::vector<std::string>& parameters, const std::vector<std::string>& figures)
+      : out_(path), names_(parameters) {
+    names_.insert(names_.end(), figures.begin(), figures.end());
+    names_.push_back("error");
+    if (!out_) return;
+    for (const std::string& name : parameters) columns_.push_back(out_.series(name));
+    for (const std::string& name : figures) columns_.push_back(out_.series(name));
+  }
+  void write(const std::vector<double>& values, const PointResult& r) {
+    if (!out_) return;
+    std::size_t c = 0;
+    for (double v : values) out_.append_value(columns_[c++], v);
+    for (double f : r.figures) out_.append_value(columns_[c++], f);
+    if (!r.error.empty()) failures_.emplace_back(rows_, r.error);
+    ++rows_;
+  }
+  void finish(const Json& summary) {
+    if (!out_) return;
+    std::vector<std::string> errors(rows_);
+    for (auto& [k, message] : failures_) errors[k] = std::move(message);
+    out_.strings("error", errors);
+    out_.attributes(summary);
+    out_.attributes(Json{{"columns", names_}});
+    out_.commit();
+  }
+
+ private:
+  Hdf5Output out_;
+  std::vector<std::string> names_;  // the CSV's header, in order (the attribute columns)
+  std::vector<int> columns_;
+  std::size_t rows_ = 0;
+  std::vector<std::pair<std::size_t, std::string>> failures_;  // the error column is mostly empty
 };
 
 /// Rank 0's (or the only process's) side: the output, the summary, and the points in order.
 struct Collector {
   Sweep& s;
   TableOutput table;
+  Hdf5Table h5;
   SummaryOutput json;
   SweepReport report;
   Progress progress;
@@ -333,11 +382,14 @@ struct Collector {
 
   explicit Collector(Sweep& sweep)
       : s(sweep),
-        table((check_output_paths({sweep.common.json, sweep.common.csv}, run_inputs(*sweep.model, sweep.inputs)),
+        table((check_output_paths({sweep.common.json, sweep.common.csv, sweep.hdf5}, run_inputs(*sweep.model, sweep.inputs)),
                sweep.common.csv),
               sweep_header(sweep.points->names(), sweep.figures), sweep.resume, *sweep.points),
+        h5(sweep.hdf5, sweep.points->names(), sweep.figures),
         json(sweep.common.json),
         progress(sweep.points->size(), table.resumed()) {
+    for (std::size_t k = 0; k < table.resumed(); ++k)
+      h5.write(s.points->values(k), parse_sweep_row(table.kept()[k], s.points->names().size(), s.figures.size()));
     for (std::size_t k = table.resumed(); k < s.points->size(); ++k) todo.push_back(k);
     report.job = s.job;
     report.job_settings = s.job0->settings();
@@ -350,7 +402,9 @@ struct Collector {
     report.resumed = table.resumed();
   }
   void add(std::size_t k, const PointResult& r) {
-    table.write(sweep_row(s.points->values(k), r));
+    const std::vector<double> values = s.points->values(k);
+    table.write(sweep_row(values, r));
+    h5.write(values, r);
     ++report.computed;
     if (!r.error.empty()) {
       ++report.failed;
@@ -361,7 +415,9 @@ struct Collector {
   int finish() {
     report.seconds = progress.seconds();
     table.finish();
-    json.write(with_app("ordex-sweep", report.to_json()));
+    const Json summary = with_app("ordex-sweep", report.to_json());
+    h5.finish(summary);
+    json.write(summary);
     json.commit();
     std::cerr << "ordex-sweep: " << report.points << " of " << report.points << " points (" << report.computed
               << " computed, " << report.resumed << " resumed, " << report.failed << " failed)" << std::endl;

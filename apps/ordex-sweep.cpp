@@ -50,7 +50,8 @@ const char* const kAbout =
     "interrupted sweep from PATH.partial (or PATH) instead of computing its rows again. --hdf5 writes the same "
     "table as HDF5 (one dataset per column, the summary's header as attributes; docs/sweep.md), complete when the "
     "sweep is done.\n"
-    "Under mpirun -np N (N > 1) rank 0 hands out points and writes the table, the other ranks compute; "
+    "Under mpirun -np N (N > 1) rank 0 hands out points, writes the table and computes points between messages; "
+    "the other ranks compute; "
     "otherwise --threads threads compute. Progress (points done of the total) goes to standard error.\n"
     "Exit status: 0 done (also when points failed: see the error column and the summary's failed), 2 bad "
     "input, 3 numerical failure outside the points.";
@@ -435,9 +436,12 @@ int run_threads(Sweep& s) {
 }
 
 #ifdef ORDEX_WITH_MPI
-// Messages: rank 0 sends WORK {first position, count} (count 0: stop); a worker sends RESULTS
-// (its finished points, possibly none) and so asks for more.
-constexpr int kTagWork = 1, kTagResults = 2;
+// Messages: a worker sends RESULTS (its finished points, possibly none), which also asks for
+// more; rank 0 answers each with WORK {first position, count} (count 0: no more). Each worker
+// keeps kOpenRequests requests open, so that its next chunk is already waiting when it finishes
+// one and it never idles for a round trip; it stops after as many count-0 answers.
+constexpr int kTagWork = 1, kTagResults = 2, kOpenRequests = 2;
+constexpr double kChunkSeconds = 0.01;
 
 void pack(std::vector<char>& buf, const void* p, std::size_t n) {
   const char* c = static_cast<const char*>(p);
@@ -500,24 +504,51 @@ int run_rank0(Sweep& s, int ranks) {
   c.report.threads = 1;
   c.report.ranks = ranks;
   OrderedResults ordered([&](std::size_t position, const PointResult& r) { c.add(c.todo[position], r); });
-  const std::size_t total = c.todo.size(), workers = static_cast<std::size_t>(ranks - 1);
-  std::size_t next = 0;
-  int active = ranks - 1;
-  while (active > 0) {
+  // Rank 0 computes points too, one at a time between the workers' messages (a point is short
+  // beside a worker's chunk, so an answer waits at most one point, and the worker's other open
+  // request covers that wait): with N ranks, N processes compute.
+  const std::unique_ptr<System> sys = s.base->clone();
+  const std::unique_ptr<SweepJob> job = s.make_job();
+  const std::size_t total = c.todo.size(), computers = static_cast<std::size_t>(ranks);
+  std::size_t next = 0, own = 0;
+  double own_seconds = 0;  // rank 0's time on its own points: the chunks' size
+  int open = kOpenRequests * (ranks - 1);
+  while (open > 0) {
+    int message = 0;
     MPI_Status status;
-    MPI_Probe(MPI_ANY_SOURCE, kTagResults, MPI_COMM_WORLD, &status);
+    MPI_Iprobe(MPI_ANY_SOURCE, kTagResults, MPI_COMM_WORLD, &message, &status);
+    if (!message) {
+      if (next < total) {
+        const std::size_t p = next++;
+        const auto start = std::chrono::steady_clock::now();
+        PointResult r = evaluate_point(*sys, *job, s.points->values(c.todo[p]), c.todo[p], s.figures.size());
+        own_seconds += std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+        ++own;
+        ordered.add(p, std::move(r));
+      } else {
+        // Every point handed out: wait for the last results without taking a core from the ranks computing them.
+        std::this_thread::sleep_for(std::chrono::microseconds(100));
+      }
+      continue;
+    }
     int bytes = 0;
     MPI_Get_count(&status, MPI_BYTE, &bytes);
     std::vector<char> buf(static_cast<std::size_t>(bytes));
     MPI_Recv(buf.data(), bytes, MPI_BYTE, status.MPI_SOURCE, kTagResults, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
     for (auto& [position, r] : unpack_results(buf)) ordered.add(position, std::move(r));
-    // Small chunks, smaller towards the end, so that slow points do not leave ranks idle.
+    // Chunks of about kChunkSeconds of work (by rank 0's own points; one point until it has
+    // timed one), so that messages stay rare beside the work even when short points share busy
+    // cores with other processes, and smaller towards the end, so that slow points do not leave
+    // ranks idle.
     const std::size_t left = total - next;
-    const std::size_t chunk = std::min(left, std::max<std::size_t>(1, std::min<std::size_t>(8, left / (4 * workers))));
+    const double per_point = own > 0 ? own_seconds / static_cast<double>(own) : 0;
+    const std::size_t by_time =
+        per_point > 0 ? static_cast<std::size_t>(std::clamp(kChunkSeconds / per_point, 1.0, 4096.0)) : 1;
+    const std::size_t chunk = std::min(left, std::max<std::size_t>(1, std::min(by_time, left / (4 * computers))));
     const std::uint64_t work[2] = {next, chunk};
     MPI_Send(work, 2, MPI_UINT64_T, status.MPI_SOURCE, kTagWork, MPI_COMM_WORLD);
     next += chunk;
-    if (chunk == 0) --active;
+    if (chunk == 0) --open;
   }
   return c.finish();
 }
@@ -530,16 +561,20 @@ void run_worker(Sweep& s) {
   if (first == kNoStart) return;
   const std::unique_ptr<System> sys = s.base->clone();
   const std::unique_ptr<SweepJob> job = s.make_job();
+  for (int i = 0; i < kOpenRequests; ++i) MPI_Send(nullptr, 0, MPI_BYTE, 0, kTagResults, MPI_COMM_WORLD);
   std::vector<std::pair<std::uint64_t, PointResult>> done;
-  for (;;) {
+  for (int stops = 0; stops < kOpenRequests;) {
+    std::uint64_t work[2];
+    MPI_Recv(work, 2, MPI_UINT64_T, 0, kTagWork, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
+    if (work[1] == 0) {
+      ++stops;  // answers come in order: after the first stop only stops follow
+      continue;
+    }
+    for (std::uint64_t p = work[0]; p < work[0] + work[1]; ++p)
+      done.emplace_back(p, evaluate_point(*sys, *job, s.points->values(first + p), first + p, s.figures.size()));
     const std::vector<char> buf = pack_results(done);
     MPI_Send(buf.data(), static_cast<int>(buf.size()), MPI_BYTE, 0, kTagResults, MPI_COMM_WORLD);
     done.clear();
-    std::uint64_t work[2];
-    MPI_Recv(work, 2, MPI_UINT64_T, 0, kTagWork, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
-    if (work[1] == 0) return;
-    for (std::uint64_t p = work[0]; p < work[0] + work[1]; ++p)
-      done.emplace_back(p, evaluate_point(*sys, *job, s.points->values(first + p), first + p, s.figures.size()));
   }
 }
 
@@ -558,6 +593,9 @@ int main(int argc, char** argv) {
 #ifdef ORDEX_WITH_MPI
   const bool mpi = launched_by_mpi();
   if (mpi) {
+    // Open MPI: a rank waiting in a call gives up its core instead of spinning (ranks often
+    // share cores with other ranks, or with rank 0 between its points); the user's setting wins.
+    setenv("OMPI_MCA_mpi_yield_when_idle", "1", 0);
     MPI_Init(&argc, &argv);
     MPI_Comm_rank(MPI_COMM_WORLD, &rank);
     MPI_Comm_size(MPI_COMM_WORLD, &ranks);

@@ -394,7 +394,7 @@ struct Collector {
     for (std::size_t k = table.resumed(); k < s.points->size(); ++k) todo.push_back(k);
     report.job = s.job;
     report.job_settings = s.job0->settings();
-    report.header = report_header(*s.model, s.job0->t0(), s.job0->t1(), report.job_settings.value("method", std::string("auto")));
+    report.header = report_header(*s.model, s.job0->t0(), s.job0->t1(), s.job0->method(*s.base));
     report.parameters = s.points->names();
     report.figures = s.figures;
     report.points_from = s.points->is_grid() ? "grid" : "samples";

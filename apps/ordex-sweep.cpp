@@ -450,7 +450,20 @@ int run_threads(Sweep& s) {
 // keeps kOpenRequests requests open, so that its next chunk is already waiting when it finishes
 // one and it never idles for a round trip; it stops after as many count-0 answers.
 constexpr int kTagWork = 1, kTagResults = 2, kOpenRequests = 2;
-constexpr double kChunkSeconds = 0.01;
+constexpr double kChunkSeconds = 0.01, kPollSeconds = 0.001;
+
+/// Receives the next WORK message, sleeping between tests rather than spinning on a core that
+/// the ranks still computing may need (the answer is usually there already: see kOpenRequests).
+void receive_work(std::uint64_t work[2]) {
+  MPI_Request request;
+  MPI_Irecv(work, 2, MPI_UINT64_T, 0, kTagWork, MPI_COMM_WORLD, &request);
+  for (;;) {
+    int done = 0;
+    MPI_Test(&request, &done, MPI_STATUS_IGNORE);
+    if (done) return;
+    std::this_thread::sleep_for(std::chrono::microseconds(50));
+  }
+}
 
 void pack(std::vector<char>& buf, const void* p, std::size_t n) {
   const char* c = static_cast<const char*>(p);
@@ -522,10 +535,17 @@ int run_rank0(Sweep& s, int ranks) {
   std::size_t next = 0, own = 0;
   double own_seconds = 0;  // rank 0's time on its own points: the chunks' size
   int open = kOpenRequests * (ranks - 1);
+  auto polled = std::chrono::steady_clock::now();
   while (open > 0) {
+    // Messages are looked for at most every kPollSeconds while rank 0 has points of its own:
+    // a probe costs little, but Open MPI may give up the core in it on a busy machine.
     int message = 0;
     MPI_Status status;
-    MPI_Iprobe(MPI_ANY_SOURCE, kTagResults, MPI_COMM_WORLD, &message, &status);
+    const auto now = std::chrono::steady_clock::now();
+    if (next >= total || std::chrono::duration<double>(now - polled).count() >= kPollSeconds) {
+      MPI_Iprobe(MPI_ANY_SOURCE, kTagResults, MPI_COMM_WORLD, &message, &status);
+      if (!message) polled = now;
+    }
     if (!message) {
       if (next < total) {
         const std::size_t p = next++;
@@ -571,20 +591,30 @@ void run_worker(Sweep& s) {
   const std::unique_ptr<System> sys = s.base->clone();
   const std::unique_ptr<SweepJob> job = s.make_job();
   for (int i = 0; i < kOpenRequests; ++i) MPI_Send(nullptr, 0, MPI_BYTE, 0, kTagResults, MPI_COMM_WORLD);
+  // The results go without waiting for rank 0 to take them (a chunk's results exceed the size MPI
+  // sends at once, and a blocking send would idle this rank until rank 0 next looks): the send is
+  // moved along after every point of the next chunk and completed before the one after.
+  std::vector<char> sending;
+  MPI_Request send = MPI_REQUEST_NULL;
   std::vector<std::pair<std::uint64_t, PointResult>> done;
   for (int stops = 0; stops < kOpenRequests;) {
     std::uint64_t work[2];
-    MPI_Recv(work, 2, MPI_UINT64_T, 0, kTagWork, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
+    receive_work(work);
     if (work[1] == 0) {
       ++stops;  // answers come in order: after the first stop only stops follow
       continue;
     }
-    for (std::uint64_t p = work[0]; p < work[0] + work[1]; ++p)
+    for (std::uint64_t p = work[0]; p < work[0] + work[1]; ++p) {
       done.emplace_back(p, evaluate_point(*sys, *job, s.points->values(first + p), first + p, s.figures.size()));
-    const std::vector<char> buf = pack_results(done);
-    MPI_Send(buf.data(), static_cast<int>(buf.size()), MPI_BYTE, 0, kTagResults, MPI_COMM_WORLD);
+      int sent = 0;
+      MPI_Test(&send, &sent, MPI_STATUS_IGNORE);
+    }
+    MPI_Wait(&send, MPI_STATUS_IGNORE);
+    sending = pack_results(done);
+    MPI_Isend(sending.data(), static_cast<int>(sending.size()), MPI_BYTE, 0, kTagResults, MPI_COMM_WORLD, &send);
     done.clear();
   }
+  MPI_Wait(&send, MPI_STATUS_IGNORE);
 }
 
 /// True when started by mpirun (or another MPI launcher): then MPI is initialized.
@@ -602,9 +632,6 @@ int main(int argc, char** argv) {
 #ifdef ORDEX_WITH_MPI
   const bool mpi = launched_by_mpi();
   if (mpi) {
-    // Open MPI: a rank waiting in a call gives up its core instead of spinning (ranks often
-    // share cores with other ranks, or with rank 0 between its points); the user's setting wins.
-    setenv("OMPI_MCA_mpi_yield_when_idle", "1", 0);
     MPI_Init(&argc, &argv);
     MPI_Comm_rank(MPI_COMM_WORLD, &rank);
     MPI_Comm_size(MPI_COMM_WORLD, &ranks);

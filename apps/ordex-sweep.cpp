@@ -15,6 +15,7 @@
 #include <thread>
 
 #include "common/front_end.hpp"
+#include "common/hdf5_output.hpp"
 #include "common/job_options.hpp"
 #include "io/errors.hpp"
 #include "io/input_file.hpp"
@@ -45,9 +46,12 @@ const char* const kAbout =
     "--csv writes one row per point in point order: the parameters, the key figures, then error (empty when "
     "the point succeeded; a failing point is recorded and the sweep goes on). Numbers are printed in their "
     "shortest round-trip form, so the table is the same byte for byte whatever --threads or the number of MPI ranks. Rows go to "
-    "PATH.partial as they complete, in order; PATH appears when the sweep is done. --resume continues an "
-    "interrupted sweep from PATH.partial (or PATH) instead of computing its rows again.\n"
-    "Under mpirun -np N (N > 1) rank 0 hands out points and writes the table, the other ranks compute; "
+    "PATH.partial as they complete, in order (flushed every half second); PATH appears when the sweep is done. --resume continues an "
+    "interrupted sweep from PATH.partial (or PATH) instead of computing its rows again. --hdf5 writes the same "
+    "table as HDF5 (one dataset per column, the summary's header as attributes; docs/sweep.md), complete when the "
+    "sweep is done.\n"
+    "Under mpirun -np N (N > 1) rank 0 hands out points, writes the table and computes points between messages; "
+    "the other ranks compute; "
     "otherwise --threads threads compute. Progress (points done of the total) goes to standard error.\n"
     "Exit status: 0 done (also when points failed: see the error column and the summary's failed), 2 bad "
     "input, 3 numerical failure outside the points.";
@@ -78,6 +82,7 @@ struct Sweep {
   std::string job;
   std::vector<std::string> grid;
   std::string sample;
+  std::string hdf5;
   long runs = 0;
   unsigned long long seed = 1;
   int threads = 1;
@@ -121,6 +126,8 @@ bool build_sweep(int argc, char** argv, Sweep& s) {
        "(without mpirun)")
       ("resume", po::bool_switch(&s.resume), "continue from the rows of an interrupted sweep in --csv's "
        "PATH.partial (or PATH) instead of computing them again");
+  add_hdf5_option(desc, s.hdf5, "the table: one dataset per column, named as in the CSV (the parameters and key "
+                                "figures: numbers, one per point in point order; error: texts)");
   const std::string job = job_from_argv(argc, argv);
   po::options_description job_desc("Options of --job " + job);
   if (job == "gramian") add_gramian_options(job_desc, gramian_flags, gramian_options);
@@ -269,7 +276,7 @@ class Progress {
   clock::time_point start_, last_;
 };
 
-/// The table: rows appended to PATH.partial (flushed, in point order) and renamed to PATH at the
+/// The table: rows appended to PATH.partial (in point order, flushed every half second) and renamed to PATH at the
 /// end; "-" writes standard output; empty writes nothing.
 class TableOutput {
  public:
@@ -286,6 +293,7 @@ class TableOutput {
       }
     }
     resumed_ = kept.size();
+    kept_ = kept;
     if (path_ == "-") {
       out_ = &std::cout;
     } else {
@@ -298,13 +306,21 @@ class TableOutput {
     flush();
   }
   std::size_t resumed() const { return resumed_; }
+  /// The rows taken over from the interrupted sweep (points 0, 1, ...).
+  const std::vector<std::string>& kept() const { return kept_; }
   void write(const std::string& row) {
     if (!out_) return;
     *out_ << row << "\n";
-    flush();
+    // Flushed every kFlushSeconds rather than per row: a write call per row would cost a
+    // sizeable part of a short point. An interruption loses at most those rows (and a cut row),
+    // which --resume computes again.
+    const auto now = std::chrono::steady_clock::now();
+    if (std::chrono::duration<double>(now - flushed_).count() >= kFlushSeconds) flush();
   }
   void finish() {
-    if (!out_ || path_ == "-") return;
+    if (!out_) return;
+    flush();
+    if (path_ == "-") return;
     file_.close();
     if (!file_) throw InputError(partial() + ": cannot write");
     fs::rename(partial(), path_);
@@ -312,7 +328,9 @@ class TableOutput {
 
  private:
   std::string partial() const { return path_ + ".partial"; }
+  static constexpr double kFlushSeconds = 0.5;
   void flush() {
+    flushed_ = std::chrono::steady_clock::now();
     out_->flush();
     if (!*out_) throw InputError((path_ == "-" ? std::string("standard output") : partial()) + ": cannot write");
   }
@@ -320,12 +338,53 @@ class TableOutput {
   std::ofstream file_;
   std::ostream* out_ = nullptr;
   std::size_t resumed_ = 0;
+  std::vector<std::string> kept_;
+  std::chrono::steady_clock::time_point flushed_ = std::chrono::steady_clock::now();
+};
+
+/// The table as HDF5 (--hdf5): one dataset per column of the CSV, the numbers appended as the
+/// rows come (in point order), the error texts and the summary's attributes written at the end.
+class Hdf5Table {
+ public:
+  Hdf5Table(const std::string& path, const std::vector<std::string>& parameters, const std::vector<std::string>& figures)
+      : out_(path), names_(parameters) {
+    names_.insert(names_.end(), figures.begin(), figures.end());
+    names_.push_back("error");
+    if (!out_) return;
+    for (const std::string& name : parameters) columns_.push_back(out_.series(name));
+    for (const std::string& name : figures) columns_.push_back(out_.series(name));
+  }
+  void write(const std::vector<double>& values, const PointResult& r) {
+    if (!out_) return;
+    std::size_t c = 0;
+    for (double v : values) out_.append_value(columns_[c++], v);
+    for (double f : r.figures) out_.append_value(columns_[c++], f);
+    if (!r.error.empty()) failures_.emplace_back(rows_, r.error);
+    ++rows_;
+  }
+  void finish(const Json& summary) {
+    if (!out_) return;
+    std::vector<std::string> errors(rows_);
+    for (auto& [k, message] : failures_) errors[k] = std::move(message);
+    out_.strings("error", errors);
+    out_.attributes(summary);
+    out_.attributes(Json{{"columns", names_}});
+    out_.commit();
+  }
+
+ private:
+  Hdf5Output out_;
+  std::vector<std::string> names_;  // the CSV's header, in order (the attribute columns)
+  std::vector<int> columns_;
+  std::size_t rows_ = 0;
+  std::vector<std::pair<std::size_t, std::string>> failures_;  // the error column is mostly empty
 };
 
 /// Rank 0's (or the only process's) side: the output, the summary, and the points in order.
 struct Collector {
   Sweep& s;
   TableOutput table;
+  Hdf5Table h5;
   SummaryOutput json;
   SweepReport report;
   Progress progress;
@@ -333,15 +392,18 @@ struct Collector {
 
   explicit Collector(Sweep& sweep)
       : s(sweep),
-        table((check_output_paths({sweep.common.json, sweep.common.csv}, run_inputs(*sweep.model, sweep.inputs)),
+        table((check_output_paths({sweep.common.json, sweep.common.csv, sweep.hdf5}, run_inputs(*sweep.model, sweep.inputs)),
                sweep.common.csv),
               sweep_header(sweep.points->names(), sweep.figures), sweep.resume, *sweep.points),
+        h5(sweep.hdf5, sweep.points->names(), sweep.figures),
         json(sweep.common.json),
         progress(sweep.points->size(), table.resumed()) {
+    for (std::size_t k = 0; k < table.resumed(); ++k)
+      h5.write(s.points->values(k), parse_sweep_row(table.kept()[k], s.points->names().size(), s.figures.size()));
     for (std::size_t k = table.resumed(); k < s.points->size(); ++k) todo.push_back(k);
     report.job = s.job;
     report.job_settings = s.job0->settings();
-    report.header = report_header(*s.model, s.job0->t0(), s.job0->t1(), report.job_settings.value("method", std::string("auto")));
+    report.header = report_header(*s.model, s.job0->t0(), s.job0->t1(), s.job0->method(*s.base));
     report.parameters = s.points->names();
     report.figures = s.figures;
     report.points_from = s.points->is_grid() ? "grid" : "samples";
@@ -350,7 +412,9 @@ struct Collector {
     report.resumed = table.resumed();
   }
   void add(std::size_t k, const PointResult& r) {
-    table.write(sweep_row(s.points->values(k), r));
+    const std::vector<double> values = s.points->values(k);
+    table.write(sweep_row(values, r));
+    h5.write(values, r);
     ++report.computed;
     if (!r.error.empty()) {
       ++report.failed;
@@ -361,7 +425,9 @@ struct Collector {
   int finish() {
     report.seconds = progress.seconds();
     table.finish();
-    json.write(with_app("ordex-sweep", report.to_json()));
+    const Json summary = with_app("ordex-sweep", report.to_json());
+    h5.finish(summary);
+    json.write(summary);
     json.commit();
     std::cerr << "ordex-sweep: " << report.points << " of " << report.points << " points (" << report.computed
               << " computed, " << report.resumed << " resumed, " << report.failed << " failed)" << std::endl;
@@ -379,9 +445,25 @@ int run_threads(Sweep& s) {
 }
 
 #ifdef ORDEX_WITH_MPI
-// Messages: rank 0 sends WORK {first position, count} (count 0: stop); a worker sends RESULTS
-// (its finished points, possibly none) and so asks for more.
-constexpr int kTagWork = 1, kTagResults = 2;
+// Messages: a worker sends RESULTS (its finished points, possibly none), which also asks for
+// more; rank 0 answers each with WORK {first position, count} (count 0: no more). Each worker
+// keeps kOpenRequests requests open, so that its next chunk is already waiting when it finishes
+// one and it never idles for a round trip; it stops after as many count-0 answers.
+constexpr int kTagWork = 1, kTagResults = 2, kOpenRequests = 2;
+constexpr double kChunkSeconds = 0.01, kPollSeconds = 0.001;
+
+/// Receives the next WORK message, sleeping between tests rather than spinning on a core that
+/// the ranks still computing may need (the answer is usually there already: see kOpenRequests).
+void receive_work(std::uint64_t work[2]) {
+  MPI_Request request;
+  MPI_Irecv(work, 2, MPI_UINT64_T, 0, kTagWork, MPI_COMM_WORLD, &request);
+  for (;;) {
+    int done = 0;
+    MPI_Test(&request, &done, MPI_STATUS_IGNORE);
+    if (done) return;
+    std::this_thread::sleep_for(std::chrono::microseconds(50));
+  }
+}
 
 void pack(std::vector<char>& buf, const void* p, std::size_t n) {
   const char* c = static_cast<const char*>(p);
@@ -444,24 +526,58 @@ int run_rank0(Sweep& s, int ranks) {
   c.report.threads = 1;
   c.report.ranks = ranks;
   OrderedResults ordered([&](std::size_t position, const PointResult& r) { c.add(c.todo[position], r); });
-  const std::size_t total = c.todo.size(), workers = static_cast<std::size_t>(ranks - 1);
-  std::size_t next = 0;
-  int active = ranks - 1;
-  while (active > 0) {
+  // Rank 0 computes points too, one at a time between the workers' messages (a point is short
+  // beside a worker's chunk, so an answer waits at most one point, and the worker's other open
+  // request covers that wait): with N ranks, N processes compute.
+  const std::unique_ptr<System> sys = s.base->clone();
+  const std::unique_ptr<SweepJob> job = s.make_job();
+  const std::size_t total = c.todo.size(), computers = static_cast<std::size_t>(ranks);
+  std::size_t next = 0, own = 0;
+  double own_seconds = 0;  // rank 0's time on its own points: the chunks' size
+  int open = kOpenRequests * (ranks - 1);
+  auto polled = std::chrono::steady_clock::now();
+  while (open > 0) {
+    // Messages are looked for at most every kPollSeconds while rank 0 has points of its own:
+    // a probe costs little, but Open MPI may give up the core in it on a busy machine.
+    int message = 0;
     MPI_Status status;
-    MPI_Probe(MPI_ANY_SOURCE, kTagResults, MPI_COMM_WORLD, &status);
+    const auto now = std::chrono::steady_clock::now();
+    if (next >= total || std::chrono::duration<double>(now - polled).count() >= kPollSeconds) {
+      MPI_Iprobe(MPI_ANY_SOURCE, kTagResults, MPI_COMM_WORLD, &message, &status);
+      if (!message) polled = now;
+    }
+    if (!message) {
+      if (next < total) {
+        const std::size_t p = next++;
+        const auto start = std::chrono::steady_clock::now();
+        PointResult r = evaluate_point(*sys, *job, s.points->values(c.todo[p]), c.todo[p], s.figures.size());
+        own_seconds += std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+        ++own;
+        ordered.add(p, std::move(r));
+      } else {
+        // Every point handed out: wait for the last results without taking a core from the ranks computing them.
+        std::this_thread::sleep_for(std::chrono::microseconds(100));
+      }
+      continue;
+    }
     int bytes = 0;
     MPI_Get_count(&status, MPI_BYTE, &bytes);
     std::vector<char> buf(static_cast<std::size_t>(bytes));
     MPI_Recv(buf.data(), bytes, MPI_BYTE, status.MPI_SOURCE, kTagResults, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
     for (auto& [position, r] : unpack_results(buf)) ordered.add(position, std::move(r));
-    // Small chunks, smaller towards the end, so that slow points do not leave ranks idle.
+    // Chunks of about kChunkSeconds of work (by rank 0's own points; one point until it has
+    // timed one), so that messages stay rare beside the work even when short points share busy
+    // cores with other processes, and smaller towards the end, so that slow points do not leave
+    // ranks idle.
     const std::size_t left = total - next;
-    const std::size_t chunk = std::min(left, std::max<std::size_t>(1, std::min<std::size_t>(8, left / (4 * workers))));
+    const double per_point = own > 0 ? own_seconds / static_cast<double>(own) : 0;
+    const std::size_t by_time =
+        per_point > 0 ? static_cast<std::size_t>(std::clamp(kChunkSeconds / per_point, 1.0, 4096.0)) : 1;
+    const std::size_t chunk = std::min(left, std::max<std::size_t>(1, std::min(by_time, left / (4 * computers))));
     const std::uint64_t work[2] = {next, chunk};
     MPI_Send(work, 2, MPI_UINT64_T, status.MPI_SOURCE, kTagWork, MPI_COMM_WORLD);
     next += chunk;
-    if (chunk == 0) --active;
+    if (chunk == 0) --open;
   }
   return c.finish();
 }
@@ -474,17 +590,31 @@ void run_worker(Sweep& s) {
   if (first == kNoStart) return;
   const std::unique_ptr<System> sys = s.base->clone();
   const std::unique_ptr<SweepJob> job = s.make_job();
+  for (int i = 0; i < kOpenRequests; ++i) MPI_Send(nullptr, 0, MPI_BYTE, 0, kTagResults, MPI_COMM_WORLD);
+  // The results go without waiting for rank 0 to take them (a chunk's results exceed the size MPI
+  // sends at once, and a blocking send would idle this rank until rank 0 next looks): the send is
+  // moved along after every point of the next chunk and completed before the one after.
+  std::vector<char> sending;
+  MPI_Request send = MPI_REQUEST_NULL;
   std::vector<std::pair<std::uint64_t, PointResult>> done;
-  for (;;) {
-    const std::vector<char> buf = pack_results(done);
-    MPI_Send(buf.data(), static_cast<int>(buf.size()), MPI_BYTE, 0, kTagResults, MPI_COMM_WORLD);
-    done.clear();
+  for (int stops = 0; stops < kOpenRequests;) {
     std::uint64_t work[2];
-    MPI_Recv(work, 2, MPI_UINT64_T, 0, kTagWork, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
-    if (work[1] == 0) return;
-    for (std::uint64_t p = work[0]; p < work[0] + work[1]; ++p)
+    receive_work(work);
+    if (work[1] == 0) {
+      ++stops;  // answers come in order: after the first stop only stops follow
+      continue;
+    }
+    for (std::uint64_t p = work[0]; p < work[0] + work[1]; ++p) {
       done.emplace_back(p, evaluate_point(*sys, *job, s.points->values(first + p), first + p, s.figures.size()));
+      int sent = 0;
+      MPI_Test(&send, &sent, MPI_STATUS_IGNORE);
+    }
+    MPI_Wait(&send, MPI_STATUS_IGNORE);
+    sending = pack_results(done);
+    MPI_Isend(sending.data(), static_cast<int>(sending.size()), MPI_BYTE, 0, kTagResults, MPI_COMM_WORLD, &send);
+    done.clear();
   }
+  MPI_Wait(&send, MPI_STATUS_IGNORE);
 }
 
 /// True when started by mpirun (or another MPI launcher): then MPI is initialized.

@@ -255,3 +255,19 @@ TEST(SweepApp, GramianRegulateAndRespondFiguresMatchClosedForms) {
     EXPECT_NEAR(std::stod(rows[i][2]), -w * std::sin(w * t), 1e-7);
   }
 }
+
+// The summary's header names the method the floquet job integrates with, as ordex-propagate's
+// summary does for the same model and options (auto is resolved, not echoed); job_settings keeps
+// the request.
+TEST(SweepApp, SummaryHeaderNamesTheMethodUsed) {
+  for (const std::string method : {"", " --method adams"}) {
+    const RunResult s = sweep("--model " + kMathieu + " --job floquet --grid a=1:2:2 --json -" + method);
+    ASSERT_EQ(s.exit_code, 0) << s.err;
+    const RunResult p = run_app("ordex-propagate", "--model " + kMathieu + " --json -" + method);
+    ASSERT_EQ(p.exit_code, 0) << p.err;
+    const auto js = nlohmann::json::parse(s.out), jp = nlohmann::json::parse(p.out);
+    EXPECT_EQ(js["method"], jp["method"]) << method;
+    EXPECT_NE(js["method"], "auto");
+    EXPECT_EQ(js["job_settings"]["method"], method.empty() ? "auto" : "adams");
+  }
+}

@@ -5,6 +5,7 @@
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <limits>
 
 #include "io/errors.hpp"
 #include "job_support.hpp"
@@ -142,6 +143,25 @@ TEST(SweepCore, RowsAndResume) {
             std::string::npos);
   EXPECT_NE(input_error_of([&] { resumable_rows(header + "\n0,1,\n0.25,1,\n", "t.csv", header, p); }).find("line 3"),
             std::string::npos);
+}
+
+// A row read back (a resumed sweep's rows for --hdf5) gives the same doubles, bit for bit, and
+// the error unquoted; newlines were folded to spaces by the CSV.
+TEST(SweepCore, RowsReadBack) {
+  const PointResult ok{{1.0 / 3, std::nan(""), -1e-300, std::numeric_limits<double>::infinity(), 0.1 + 0.2}, ""};
+  const PointResult back = parse_sweep_row(sweep_row({0.1, -2}, ok), 2, 5);
+  ASSERT_EQ(back.figures.size(), 5u);
+  for (std::size_t i = 0; i < 5; ++i)
+    if (!std::isnan(ok.figures[i])) {
+      EXPECT_EQ(back.figures[i], ok.figures[i]) << i;
+    }
+  EXPECT_TRUE(std::isnan(back.figures[1]));
+  EXPECT_EQ(back.error, "");
+  const PointResult bad{{std::nan("")}, "x, \"y\"\nz"};
+  EXPECT_EQ(parse_sweep_row(sweep_row({0.5}, bad), 1, 1).error, "x, \"y\" z");
+  EXPECT_EQ(parse_sweep_row(sweep_row({0.5}, PointResult{{2}, "plain"}), 1, 1).error, "plain");
+  for (const char* broken : {"0.5,", "0.5,x,", "0.5,1,\"open", "0.5,1,\"a\"b\""})
+    EXPECT_FALSE(input_error_of([&] { parse_sweep_row(broken, 1, 1); }).empty()) << broken;
 }
 
 // Results that finish out of order are handed on in order.

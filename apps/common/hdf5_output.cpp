@@ -34,6 +34,7 @@ void Hdf5Output::append(int, const Eigen::Ref<const Eigen::MatrixXd>&) {}
 void Hdf5Output::append_value(int, double) {}
 void Hdf5Output::finish(int) {}
 void Hdf5Output::vector(const std::string&, const std::vector<double>&) {}
+void Hdf5Output::strings(const std::string&, const std::vector<std::string>&) {}
 void Hdf5Output::attributes(const Json&, const std::string&, const std::vector<std::string>&) {}
 void Hdf5Output::commit() {}
 
@@ -187,6 +188,26 @@ void Hdf5Output::vector(const std::string& name, const std::vector<double>& v) {
                       "create dataset " + name),
             H5Dclose);
   if (!v.empty()) m.check(H5Dwrite(ds, H5T_NATIVE_DOUBLE, H5S_ALL, H5S_ALL, H5P_DEFAULT, v.data()), "write " + name);
+}
+
+void Hdf5Output::strings(const std::string& name, const std::vector<std::string>& v) {
+  if (!impl_) return;
+  Impl& m = *impl_;
+  std::vector<std::string> texts;
+  for (const std::string& t : v) texts.push_back(utf8_escaped(t));
+  std::vector<const char*> ptrs;
+  for (const std::string& t : texts) ptrs.push_back(t.c_str());
+  const hsize_t dims[1] = {v.size()};
+  Handle type(m.checked(H5Tcopy(H5T_C_S1), "text type of " + name), H5Tclose);
+  m.check(H5Tset_size(type, H5T_VARIABLE), "text type of " + name);
+  m.check(H5Tset_cset(type, H5T_CSET_UTF8), "text type of " + name);
+  Handle space(m.checked(H5Screate_simple(1, dims, nullptr), "dataspace of " + name), H5Sclose);
+  Handle lcpl(m.checked(H5Pcreate(H5P_LINK_CREATE), "properties of " + name), H5Pclose);
+  m.check(H5Pset_create_intermediate_group(lcpl, 1), "groups of " + name);
+  Handle ds(m.checked(H5Dcreate2(m.file, name.c_str(), type, space, lcpl, H5P_DEFAULT, H5P_DEFAULT),
+                      "create dataset " + name),
+            H5Dclose);
+  if (!ptrs.empty()) m.check(H5Dwrite(ds, type, H5S_ALL, H5S_ALL, H5P_DEFAULT, ptrs.data()), "write " + name);
 }
 
 namespace {

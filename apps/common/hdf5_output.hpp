@@ -49,6 +49,9 @@ class Hdf5Output {
   void append_value(int s, double x);
   /// A one-dimensional dataset NAME holding V (the sample times).
   void vector(const std::string& name, const std::vector<double>& v);
+  /// A one-dimensional dataset NAME of variable-length UTF-8 texts V (a table's text column;
+  /// h5py: f[NAME].asstr()[:]).
+  void strings(const std::string& name, const std::vector<std::string>& v);
   /// Attributes of OBJECT ("/" or a group or dataset already written) from the object J: a
   /// number, boolean or string becomes a scalar attribute, a list of numbers a number array, a
   /// list of strings a string array, anything else (objects, nested lists) its compact JSON text.

@@ -5,6 +5,7 @@
 #include <charconv>
 #include <cmath>
 #include <cstdio>
+#include <cstdlib>
 #include <exception>
 #include <iomanip>
 #include <limits>
@@ -137,6 +138,37 @@ std::string sweep_row(const std::vector<double>& values, const PointResult& resu
   std::string s = sweep_row_prefix(values);
   for (double f : result.figures) s += number_text(f) + ",";
   return s + csv_field(result.error);
+}
+
+PointResult parse_sweep_row(const std::string& row, std::size_t nvalues, std::size_t nfigures) {
+  PointResult r;
+  std::size_t at = 0;
+  for (std::size_t i = 0; i < nvalues + nfigures; ++i) {
+    const std::size_t comma = row.find(',', at);
+    if (comma == std::string::npos)
+      throw InputError("a sweep row with fewer than " + std::to_string(nvalues + nfigures + 1) + " fields: '" + row + "'");
+    const std::string field = row.substr(at, comma - at);
+    char* end = nullptr;
+    const double x = std::strtod(field.c_str(), &end);  // "nan", "inf", "-inf" and to_chars' text
+    if (field.empty() || end != field.c_str() + field.size())
+      throw InputError("a sweep row with '" + field + "' where a number belongs: '" + row + "'");
+    if (i >= nvalues) r.figures.push_back(x);
+    at = comma + 1;
+  }
+  const std::string rest = row.substr(at);
+  if (rest.empty() || rest.front() != '"') {
+    r.error = rest;
+    return r;
+  }
+  for (std::size_t i = 1; i < rest.size(); ++i) {  // a quoted field: "" stands for "
+    if (rest[i] == '"') {
+      if (i + 1 < rest.size() && rest[i + 1] == '"') ++i;
+      else if (i + 1 == rest.size()) return r;
+      else break;
+    }
+    r.error += rest[i];
+  }
+  throw InputError("a sweep row with a malformed error field: '" + row + "'");
 }
 
 std::vector<std::string> resumable_rows(const std::string& text, const std::string& path, const std::string& header,

@@ -75,6 +75,11 @@ std::string sweep_row(const std::vector<double>& values, const PointResult& resu
 /// what a resumed table's row must begin with.
 std::string sweep_row_prefix(const std::vector<double>& values);
 
+/// The figures and error of ROW, a line of sweep_row with NVALUES parameters and NFIGURES
+/// figures (the inverse of sweep_row: each number reads back to the same double, the error is
+/// unquoted). Throws InputError when ROW does not have that form.
+PointResult parse_sweep_row(const std::string& row, std::size_t nvalues, std::size_t nfigures);
+
 /// The complete rows of an earlier run of the same sweep in TEXT (a table whose header is
 /// HEADER): the longest prefix of lines that end in a newline and belong, in order, to points
 /// 0, 1, ... of POINTS. Throws InputError naming PATH when the header differs or a row belongs to

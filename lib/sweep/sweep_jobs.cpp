@@ -7,7 +7,9 @@
 #include "io/errors.hpp"
 #include "model/expression_system.hpp"
 #include "nonlinear/nominal.hpp"
+#include "propagation/generator.hpp"
 #include "propagation/ode_integrator.hpp"
+#include "propagation/propagator.hpp"
 #include "propagation/propagate_report.hpp"
 
 namespace ordex {
@@ -52,6 +54,10 @@ class FloquetJob : public SweepJob {
     Json j = engine_json(o_.propagation);
     j["period"] = t1_ - t0_;
     return j;
+  }
+  std::string method(const System& sys) const override {
+    const Method m = o_.propagation.method;
+    return method_name(m == Method::Auto ? resolve_auto_method(state_generator(sys, t0_, t1_), t0_, t1_) : m);
   }
 
  private:
@@ -260,6 +266,8 @@ std::vector<double> SweepJob::point_figures(System& sys, const std::vector<doubl
   model->set_parameters(values);
   return figures(sys);
 }
+
+std::string SweepJob::method(const System&) const { return settings().value("method", std::string("auto")); }
 
 std::uint64_t point_seed(std::uint64_t seed, std::size_t k) {
   // splitmix64 of the seed, mixed with k and mixed again: nearby (seed, k) give unrelated seeds.

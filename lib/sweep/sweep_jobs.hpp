@@ -38,6 +38,10 @@ class SweepJob {
   virtual std::vector<double> figures(const System& sys) const = 0;
   /// The job's settings for the sweep's summary.
   virtual Json settings() const = 0;
+  /// The integration method the job uses on a system like SYS (the summary header's method):
+  /// by default settings()' method as requested; a job whose engine resolves "auto" by a rule
+  /// it can apply without integrating names the method that rule picks.
+  virtual std::string method(const System& sys) const;
   /// The key figures at point K whose swept parameters take VALUES. By default SYS (an
   /// ExpressionSystem from make_sweep_system) takes VALUES and figures(SYS) gives them; a job
   /// on another kind of model (simulate) overrides this and ignores SYS.

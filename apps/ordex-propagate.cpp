@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <iostream>
+#include <thread>
 
 #include "common/front_end.hpp"
 #include "common/hdf5_output.hpp"
@@ -15,12 +16,17 @@ int main(int argc, char** argv) {
   return run_app("ordex-propagate", [&] {
     CommonOptions common;
     bool floquet = false;
+    int threads = 0;
     std::string hdf5;
     po::options_description desc("Options");
     add_common_options(desc, common);
     add_hdf5_option(desc, hdf5, "t (samples) and phi (samples x n x n) at the --samples times");
     desc.add_options()("floquet", po::bool_switch(&floquet),
                        "Floquet analysis over one period of the model from t0 (--to may be left out)");
+    desc.add_options()("threads", po::value(&threads)->value_name("N")->default_value(0),
+                       "threads for Phi(t1, t0) without --csv/--hdf5: the window is integrated in N "
+                       "pieces at once and their transition matrices multiplied (0: the machine's "
+                       "cores, at most 4; 1: one thread)");
     po::variables_map vm;
     if (!parse_command_line(argc, argv, desc, vm, "ordex-propagate",
                             "ordex-propagate --model PATH [--from T0 --to T1] [options]",
@@ -39,6 +45,8 @@ int main(int argc, char** argv) {
     PropagateOptions options;
     options.propagation = setup.propagation;
     options.propagation.progress = progress_reporter("ordex-propagate");
+    options.propagation.threads =
+        threads > 0 ? threads : static_cast<int>(std::clamp(std::thread::hardware_concurrency(), 1u, 4u));
     options.floquet = floquet;
     // Without --csv only Phi(t1, t0) is wanted: no grid, so steps need not stop at samples.
     options.samples = common.csv.empty() && hdf5.empty() ? 0 : common.samples;
@@ -71,5 +79,6 @@ int main(int argc, char** argv) {
     json.commit();
     if (report_to_stdout(common)) std::cout << report.brief();
     return 0;
-  }, {{"PropagateOptions::samples", "--samples"}, {"PropagateOptions::floquet", "--floquet"}});
+  }, {{"PropagateOptions::samples", "--samples"}, {"PropagateOptions::floquet", "--floquet"},
+      {"PropagationOptions::threads", "--threads"}});
 }

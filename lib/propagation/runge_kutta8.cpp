@@ -41,18 +41,34 @@ const double kE3[12] = {-0.18980075407240762, 0.0, 0.0, 0.0, 0.0, 4.450312892752
 
 constexpr int kStages = 12;
 
+// N is the state dimension when fixed at compile time (small plants, where dynamic-size
+// bookkeeping would cost more than the arithmetic), Eigen::Dynamic otherwise.
+template <int N>
 class RungeKutta8Stepper : public StepperBase {
+  using Mat = Eigen::Matrix<double, N, N>;
+
  public:
   RungeKutta8Stepper(const Generator& g, const PropagationOptions& o) : g_(g), o_(o) {
     const int n = g.dim;
     for (auto& k : k_) k.resize(n, n);
-    for (auto* m : {&y_, &ai_, &s_, &e5_, &xnew_, &err_, &carry_}) m->resize(n, n);
+    for (auto* m : {&y_, &ai_, &s_, &e5_, &xnew_, &err_, &carry_, &x_, &error_}) m->resize(n, n);
   }
 
   void advance(double a, double b, Eigen::MatrixXd& X, Eigen::MatrixXd& error, PropagationStats& stats,
                const std::function<void(double)>& progress) override {
+    if (b == a) return;
+    x_ = X;
+    error_ = error;
+    advance_leg(a, b, stats, progress);
+    X = x_;
+    error = error_;
+  }
+
+ private:
+  void advance_leg(double a, double b, PropagationStats& stats, const std::function<void(double)>& progress) {
+    Mat& X = x_;
+    Mat& error = error_;
     const double span = b - a;
-    if (span == 0) return;
     const double dir = span > 0 ? 1.0 : -1.0;
     double t = a;
     double h = std::abs(h_desired_);
@@ -119,7 +135,6 @@ class RungeKutta8Stepper : public StepperBase {
     if (progress) progress(b);
   }
 
- private:
   double initial_step(double a, double span, PropagationStats& stats) {
     if (o_.initial_step > 0) return std::min(o_.initial_step, span);
     g_.eval(a, ai_);
@@ -131,7 +146,7 @@ class RungeKutta8Stepper : public StepperBase {
     return std::min(h, span);
   }
 
-  double weighted_rms(const Eigen::MatrixXd& err, const Eigen::MatrixXd& xnew) const {
+  double weighted_rms(const Mat& err, const Mat& xnew) const {
     double sum = 0;
     for (Eigen::Index k = 0; k < err.size(); ++k) {
       const double r = err(k) / (o_.atol + o_.rtol * std::abs(xnew(k)));
@@ -181,14 +196,21 @@ class RungeKutta8Stepper : public StepperBase {
   PropagationOptions o_;
   double h_desired_ = 0;
   double e5_scale_ = 1;
-  std::array<Eigen::MatrixXd, kStages> k_;
-  Eigen::MatrixXd y_, ai_, s_, e5_, xnew_, err_, carry_;
+  std::array<Mat, kStages> k_;
+  Mat y_, ai_, s_, e5_, xnew_, err_, carry_, x_, error_;
 };
 
 }  // namespace
 
 std::unique_ptr<StepperBase> make_runge_kutta8_stepper(const Generator& g, const PropagationOptions& o) {
-  return std::make_unique<RungeKutta8Stepper>(g, o);
+  switch (g.dim) {
+    case 1: return std::make_unique<RungeKutta8Stepper<1>>(g, o);
+    case 2: return std::make_unique<RungeKutta8Stepper<2>>(g, o);
+    case 3: return std::make_unique<RungeKutta8Stepper<3>>(g, o);
+    case 4: return std::make_unique<RungeKutta8Stepper<4>>(g, o);
+    case 6: return std::make_unique<RungeKutta8Stepper<6>>(g, o);
+    default: return std::make_unique<RungeKutta8Stepper<Eigen::Dynamic>>(g, o);
+  }
 }
 
 }  // namespace ordex

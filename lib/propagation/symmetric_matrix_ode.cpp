@@ -224,6 +224,27 @@ SymmetricOdeStats SymmetricMatrixOdeSolver::stats() const {
   return st;
 }
 
+SchemeProbe probe_symmetric_ode(const SymmetricMatrixOde& eq, double t_from, const Eigen::MatrixXd& x_from,
+                                double t_to) {
+  eq.validate();
+  const int n = eq.n, k = eq.quadratic_rank;
+  std::vector<Eigen::MatrixXd> samples;
+  Eigen::MatrixXd F(n, n), G(n, k), W(k, k);
+  for (double t : {t_from, 0.5 * (t_from + t_to), t_to}) {
+    eq.F(t, F);
+    samples.push_back(F);
+  }
+  if (k > 0 && x_from.rows() == n && x_from.cols() == n) {
+    // The measurement (or control) term at the start: a strong one damps the modes it sees.
+    eq.F(t_from, F);
+    eq.G(t_from, G);
+    eq.W(t_from, W);
+    const Eigen::MatrixXd XG = x_from * G;
+    samples.push_back(F - XG * W * G.transpose());
+  }
+  return probe_scheme(samples, t_to - t_from);
+}
+
 Eigen::MatrixXd solve_symmetric_ode(const SymmetricMatrixOde& equation, const OdeOptions& options, double t_from,
                                     const Eigen::MatrixXd& x_from, double t_to, SymmetricOdeStats* stats) {
   SymmetricMatrixOdeSolver solver(equation, options);

@@ -17,7 +17,7 @@ struct CovarianceRoute::Impl {
   int dense_intervals;
   double t0, t1;
   std::unique_ptr<SymmetricMatrixOdeSolver> ode;
-  bool adams = false;  // the ODE route's scheme
+  std::string ode_engine;  // the ODE route's scheme (scheme_engine_name)
   std::unique_ptr<Propagator> prop;
 
   Impl(const System& s, const NoiseModel& noise, bool with_filter, RiccatiSolver r, const PropagationOptions& options,
@@ -44,9 +44,8 @@ struct CovarianceRoute::Impl {
       OdeOptions ode_opts = ode_options(options, OdeScheme::Bdf);
       if (options.method != Method::Adams && options.method != Method::Bdf)
         ode_opts.scheme = probe_symmetric_ode(eq, a, noise.P0, b).scheme;
-      adams = ode_opts.scheme == OdeScheme::Adams;
-      eq.label = std::string(with_filter ? "Kalman-Bucy" : "covariance") + " equation (CVODE " +
-                 (adams ? "Adams" : "BDF") + ")";
+      ode_engine = scheme_engine_name(ode_opts.scheme);
+      eq.label = std::string(with_filter ? "Kalman-Bucy" : "covariance") + " equation (" + ode_engine + ")";
       ode = std::make_unique<SymmetricMatrixOdeSolver>(std::move(eq), ode_opts);
     } else {
       Generator g;
@@ -131,7 +130,7 @@ RouteStats CovarianceRoute::stats() const {
   RouteStats st;
   if (impl_->ode) {
     const SymmetricOdeStats s = impl_->ode->stats();
-    st.engine = impl_->adams ? "cvode-adams" : "cvode-bdf";
+    st.engine = impl_->ode_engine;
     st.steps = s.steps;
     st.evaluations = s.rhs_evaluations;
   } else {

@@ -4,6 +4,15 @@
 
 namespace ordex {
 
+std::string scheme_engine_name(OdeScheme scheme) {
+  switch (scheme) {
+    case OdeScheme::Adams: return "cvode-adams";
+    case OdeScheme::RungeKutta: return "rkf78";
+    case OdeScheme::Bdf: break;
+  }
+  return "cvode-bdf";
+}
+
 SchemeProbe probe_scheme(const std::vector<Eigen::MatrixXd>& fc_samples, double window) {
   SchemeProbe p;
   for (const Eigen::MatrixXd& fc : fc_samples) {
@@ -14,9 +23,9 @@ SchemeProbe probe_scheme(const std::vector<Eigen::MatrixXd>& fc_samples, double 
     p.decay = std::max(p.decay, lambda.real().cwiseAbs().maxCoeff());
     p.frequency = std::max(p.frequency, lambda.imag().cwiseAbs().maxCoeff());
   }
-  const bool oscillates = p.frequency * std::abs(window) >= kAdamsMinRadians;
-  const bool stiff = p.decay > kAdamsMaxDecayRatio * p.frequency;
-  p.scheme = oscillates && !stiff ? OdeScheme::Adams : OdeScheme::Bdf;
+  const bool oscillates = p.frequency * std::abs(window) >= kExplicitMinRadians;
+  const bool stiff = p.decay > kExplicitMaxDecayRatio * p.frequency;
+  p.scheme = oscillates && !stiff ? OdeScheme::RungeKutta : OdeScheme::Bdf;
   return p;
 }
 

@@ -1,6 +1,6 @@
 // The Riccati equation itself, integrated backwards from t1 by the engine's symmetric matrix
 // equation service (propagation/symmetric_matrix_ode.hpp): CVODE BDF with the exact Schur-based
-// Lyapunov preconditioner, or CVODE Adams for a lightly damped, oscillating plant, as the
+// Lyapunov preconditioner, or an explicit Runge-Kutta pair for a lightly damped, oscillating plant, as the
 // service's probe picks (scheme_probe.hpp) unless PropagationOptions::method names one. In the service's form dP/dt = F P + P F' + S - P G W G' P:
 //   -dP/dt = A~'P + P A~ + Q~ - P B R^-1 B' P,  A~ = A - B R^-1 N',  Q~ = Q - N R^-1 N'
 // (the cross weight N folded in), so F = -A~', S = -Q~, G = B, W = -R^-1, and the service's
@@ -72,8 +72,8 @@ void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOpti
   OdeOptions ode = ode_options(options.propagation, OdeScheme::Bdf);
   const Method asked = options.propagation.method;
   if (asked != Method::Adams && asked != Method::Bdf) ode.scheme = probe_symmetric_ode(eq, t1, P, t0).scheme;
-  const bool adams = ode.scheme == OdeScheme::Adams;
-  eq.label = adams ? "Riccati equation (CVODE Adams)" : "Riccati equation (CVODE BDF)";
+  const std::string engine = scheme_engine_name(ode.scheme);
+  eq.label = "Riccati equation (" + engine + ")";
   SymmetricMatrixOdeSolver solver(std::move(eq), ode);
 
   sol.P.back() = P;
@@ -85,7 +85,7 @@ void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOpti
     if (options.propagation.progress) options.propagation.progress(double(count - 1 - i) / double(count - 1));
   }
   const SymmetricOdeStats st = solver.stats();
-  sol.stats.engine = adams ? "cvode-adams" : "cvode-bdf";
+  sol.stats.engine = engine;
   sol.stats.steps = st.steps;
   sol.stats.evaluations = st.rhs_evaluations;
   sol.stats.linear_iterations = st.linear_iterations;

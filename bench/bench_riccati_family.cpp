@@ -17,6 +17,7 @@
 
 #include <algorithm>
 #include <chrono>
+#include <cmath>
 #include <cstdio>
 #include <cstring>
 #include <functional>
@@ -156,8 +157,9 @@ int main(int argc, char** argv) {
     if (quick) return;
     EstimationReport r;
     const Timing t = time_it(repeats, [&] { r = estimate(*sys, t0, t1, o); });
-    row(kind + ", default (ode + cross-check)", t,
-        "agreement " + (r.agreement ? std::to_string(*r.agreement) : "failed: " + r.check_failure));
+    char agreement[64];
+    std::snprintf(agreement, sizeof agreement, "agreement %.2e", r.agreement ? *r.agreement : NAN);
+    row(kind + ", default (ode + cross-check)", t, r.agreement ? agreement : "cross-check failed: " + r.check_failure);
   };
   estimator(false, "Kalman-Bucy filter");
   estimator(true, "covariance analysis");

@@ -245,15 +245,19 @@ SchemeProbe probe_symmetric_ode(const SymmetricMatrixOde& eq, double t_from, con
     eq.F(t, F);
     samples.push_back(F);
   }
-  if (k > 0 && x_from.rows() == n && x_from.cols() == n) {
-    // The measurement (or control) term at the start: a strong one damps the modes it sees.
+  SchemeProbe p = probe_scheme(samples, t_to - t_from);
+  if (p.scheme == OdeScheme::RungeKutta && k > 0 && x_from.rows() == n && x_from.cols() == n) {
+    // The quadratic term at the start may make the equation stiff (a strong measurement damps
+    // the modes it sees) but never makes a slow plant oscillate: it can only veto the pair.
     eq.F(t_from, F);
     eq.G(t_from, G);
     eq.W(t_from, W);
     const Eigen::MatrixXd XG = x_from * G;
-    samples.push_back(F - XG * W * G.transpose());
+    const SchemeProbe closed = probe_scheme({F - XG * W * G.transpose()}, t_to - t_from);
+    if (!(closed.decay <= kExplicitMaxDecayRatio * p.frequency)) p.scheme = OdeScheme::Bdf;
+    p.decay = std::max(p.decay, closed.decay);
   }
-  return probe_scheme(samples, t_to - t_from);
+  return p;
 }
 
 Eigen::MatrixXd solve_symmetric_ode(const SymmetricMatrixOde& equation, const OdeOptions& options, double t_from,

@@ -89,8 +89,9 @@ class SymmetricMatrixOdeSolver {
 };
 
 /// The scheme the probe (scheme_probe.hpp) picks for EQUATION integrated from X_FROM at T_FROM
-/// toward T_TO: from Fc = F - X G W G' at T_FROM, and F at the middle and at T_TO (four small
-/// eigenvalue problems). Calls the coefficient callbacks; throws what they throw.
+/// toward T_TO: from F at T_FROM, the middle and T_TO; when that says RungeKutta, Fc = F - X G W G'
+/// at T_FROM (with X_FROM) may still veto it by a stiff decay (at most four small eigenvalue
+/// problems). Calls the coefficient callbacks; throws what they throw.
 SchemeProbe probe_symmetric_ode(const SymmetricMatrixOde& equation, double t_from, const Eigen::MatrixXd& x_from,
                                 double t_to);
 

@@ -35,7 +35,8 @@ int main(int argc, char** argv) {
          "tables: outputs, times or every, Rn): a covariance analysis with discrete Joseph-form updates at those "
          "times instead of the continuous filter")
         ("solver", po::value(&solver)->value_name("NAME")->default_value("ode"), "route that gives the results: "
-         "ode (the covariance equation with CVODE BDF) or hamiltonian (the engine, --method, on the "
+         "ode (the covariance equation with CVODE BDF, or with --method auto an explicit Runge-Kutta 7(8) pair on a "
+         "lightly damped oscillating plant; --method adams or bdf forces that scheme) or hamiltonian (the engine, --method, on the "
          "linear-fractional form); the other route runs as a cross-check")
         ("no-cross-check", "skip the second route (no agreement in the summary)")
         ("periodic", "the periodic steady-state filter (a model with a period): the stabilizing periodic solution "

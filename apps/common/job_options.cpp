@@ -43,7 +43,8 @@ void add_regulate_options(po::options_description& desc, RegulateFlags& f, Regul
        "parameters, definitions and table columns. Default Q = I, R = I, Qf = 0, N = 0. Optional Qy (outputs x "
        "outputs): the cost y'Qy y with y = Cx + Du, added as C'QyC to Q, D'QyD to R and C'QyD to N")
       ("solver", po::value(&f.solver)->value_name("NAME")->default_value(f.solver), "ode: the Riccati equation with "
-       "CVODE BDF; hamiltonian: the engine (--method) propagates the Hamiltonian one interval at a time")
+       "CVODE BDF, or with --method auto an explicit Runge-Kutta 7(8) pair on a lightly damped oscillating plant "
+       "(--method adams or bdf forces that CVODE scheme); hamiltonian: the engine (--method) propagates the Hamiltonian one interval at a time")
       ("x0", po::value(&f.x0)->value_name("V"), "initial state (comma-separated): simulate the closed loop "
        "u = -K(t)x and report the predicted and simulated cost and the final state")
       ("dense", po::value(&o.riccati.dense_intervals)->value_name("N")->default_value(2000), "least number of "

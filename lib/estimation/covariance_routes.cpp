@@ -17,6 +17,7 @@ struct CovarianceRoute::Impl {
   int dense_intervals;
   double t0, t1;
   std::unique_ptr<SymmetricMatrixOdeSolver> ode;
+  std::string ode_engine;  // the ODE route's scheme (scheme_engine_name)
   std::unique_ptr<Propagator> prop;
 
   Impl(const System& s, const NoiseModel& noise, bool with_filter, RiccatiSolver r, const PropagationOptions& options,
@@ -37,10 +38,14 @@ struct CovarianceRoute::Impl {
       }
       eq.breakpoints = s.breakpoints_between(a, b);
       eq.breakpoints.insert(eq.breakpoints.end(), {a, b});  // never step past the ends (riccati_ode.cpp)
-      eq.label = with_filter ? "Kalman-Bucy equation (CVODE BDF)" : "covariance equation (CVODE BDF)";
       eq.symbol = "P";
+      // adams or bdf as PropagationOptions::method says; otherwise the service's probe picks
+      // (scheme_probe.hpp), from P0 at the start of the window.
       OdeOptions ode_opts = ode_options(options, OdeScheme::Bdf);
-      ode_opts.scheme = OdeScheme::Bdf;  // the service's preconditioned BDF, whatever the method
+      if (options.method != Method::Adams && options.method != Method::Bdf)
+        ode_opts.scheme = probe_symmetric_ode(eq, a, noise.P0, b).scheme;
+      ode_engine = scheme_engine_name(ode_opts.scheme);
+      eq.label = std::string(with_filter ? "Kalman-Bucy" : "covariance") + " equation (" + ode_engine + ")";
       ode = std::make_unique<SymmetricMatrixOdeSolver>(std::move(eq), ode_opts);
     } else {
       Generator g;
@@ -125,7 +130,7 @@ RouteStats CovarianceRoute::stats() const {
   RouteStats st;
   if (impl_->ode) {
     const SymmetricOdeStats s = impl_->ode->stats();
-    st.engine = "cvode-bdf";
+    st.engine = impl_->ode_engine;
     st.steps = s.steps;
     st.evaluations = s.rhs_evaluations;
   } else {

@@ -1,7 +1,8 @@
 #pragma once
 // The two ways the estimator carries the covariance P forward in time (internal to
 // lib/estimation), both through the engine:
-//   Ode          the engine's symmetric matrix equation service (CVODE BDF):
+//   Ode          the engine's symmetric matrix equation service (CVODE BDF, or the scheme
+//                its probe picks, scheme_probe.hpp):
 //                  dP/dt = A P + P A' + G Qn G' [- P C' Rn^-1 C P]
 //                (F = A, S = G Qn G', and with the filter term G = C', W = Rn^-1);
 //   Hamiltonian  the linear-fractional form P = Y X^-1 with
@@ -25,7 +26,7 @@ namespace ordex {
 namespace estimation_detail {
 
 struct RouteStats {
-  std::string engine;  ///< "cvode-bdf" or the engine method
+  std::string engine;  ///< "cvode-bdf", "cvode-adams", "rkf78" or the engine method
   long steps = 0, evaluations = 0;
 };
 

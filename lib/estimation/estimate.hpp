@@ -32,12 +32,12 @@ struct EstimationOptions {
   /// covariance analysis with discrete updates (and NoiseModel::Rn is not used).
   std::optional<SensorSchedule> schedule;
   /// The route that gives the results; default RiccatiOde (the symmetric matrix equation
-  /// service, CVODE BDF); Hamiltonian is the linear-fractional route through the engine.
+  /// service: CVODE BDF, or the scheme its probe picks, scheme_probe.hpp); Hamiltonian is the linear-fractional route through the engine.
   RiccatiSolver solver = RiccatiSolver::RiccatiOde;
   /// Whether the other route is run too and the agreement reported; default true.
   bool cross_check = true;
   /// Engine method and tolerances (the Hamiltonian route's Propagator; rtol and atol for the
-  /// ODE route). Defaults as PropagationOptions.
+  /// ODE route, whose scheme is adams or bdf when method names one, else the probe's). Defaults as PropagationOptions.
   PropagationOptions propagation;
   /// Least number of intervals of the Hamiltonian route's grid over the window; default 2000.
   /// Must lie in [1, 10^7].

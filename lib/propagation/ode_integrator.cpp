@@ -232,6 +232,8 @@ struct OdeIntegrator::Impl {
 
 OdeIntegrator::OdeIntegrator(OdeProblem problem, OdeOptions options) : impl_(std::make_unique<Impl>()) {
   options.validate();
+  if (options.scheme == OdeScheme::RungeKutta)
+    throw InputError(problem.label + ": OdeIntegrator runs CVODE (Adams or BDF); RungeKutta is ExplicitRk's");
   if (problem.size < 1 || !problem.rhs) throw InputError(problem.label + ": empty ODE problem");
   impl_->problem = std::move(problem);
   impl_->options = options;

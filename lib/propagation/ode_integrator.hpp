@@ -55,7 +55,9 @@ struct OdeProblem {
   std::string label = "ODE";  ///< names the problem in messages
 };
 
-enum class OdeScheme { Adams, Bdf };
+/// RungeKutta (explicit Runge-Kutta-Fehlberg 7(8), non-stiff, no dense output) is served by
+/// SymmetricMatrixOdeSolver only (explicit_rk.hpp); OdeIntegrator refuses it.
+enum class OdeScheme { Adams, Bdf, RungeKutta };
 
 struct OdeOptions {
   /// Adams (fixed-point iteration, non-stiff) or BDF (Newton-GMRES, stiff); default Bdf.

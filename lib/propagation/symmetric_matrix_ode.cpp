@@ -5,6 +5,7 @@
 #include <utility>
 
 #include "io/errors.hpp"
+#include "propagation/explicit_rk.hpp"
 #include "propagation/lyapunov_solver.hpp"
 #include "propagation/symmetric_packing.hpp"
 
@@ -57,7 +58,8 @@ struct SymmetricMatrixOdeSolver::Impl {
   long factorizations = 0;
   bool have_factor = false;  // false until a factorization succeeds (and after one fails)
   bool use_identity = false;
-  std::unique_ptr<OdeIntegrator> ode;
+  std::unique_ptr<OdeIntegrator> ode;  // CVODE (Adams or BDF), or
+  std::unique_ptr<ExplicitRk> rk;      // the explicit Runge-Kutta scheme
   std::vector<double> y;
 
   explicit Impl(SymmetricMatrixOde e) : eq(std::move(e)), n(eq.n), k(eq.quadratic_rank) {
@@ -186,7 +188,10 @@ SymmetricMatrixOdeSolver::SymmetricMatrixOdeSolver(SymmetricMatrixOde equation, 
       unpack_symmetric(y, s->X);
       s->eq.on_step(t, s->X);
     };
-  s->ode = std::make_unique<OdeIntegrator>(std::move(p), options);
+  if (options.scheme == OdeScheme::RungeKutta)
+    s->rk = std::make_unique<ExplicitRk>(std::move(p), options);
+  else
+    s->ode = std::make_unique<OdeIntegrator>(std::move(p), options);
 }
 
 SymmetricMatrixOdeSolver::~SymmetricMatrixOdeSolver() = default;
@@ -201,12 +206,18 @@ void SymmetricMatrixOdeSolver::start(double t, const Eigen::MatrixXd& x) {
   for (std::size_t i = 0; i < s.y.size(); ++i)
     if (!std::isfinite(s.y[i]))
       throw InputError(s.eq.label + ": the start value " + s.entry_name(static_cast<int>(i)) + " is not finite");
-  s.ode->reset(t, s.y.data());
+  if (s.rk)
+    s.rk->reset(t, s.y.data());
+  else
+    s.ode->reset(t, s.y.data());
 }
 
 void SymmetricMatrixOdeSolver::advance(double t, Eigen::MatrixXd& x) {
   Impl& s = *impl_;
-  s.ode->advance(t, s.y.data());
+  if (s.rk)
+    s.rk->advance(t, s.y.data());
+  else
+    s.ode->advance(t, s.y.data());
   for (std::size_t i = 0; i < s.y.size(); ++i)
     if (!std::isfinite(s.y[i]))
       throw NumericalError(s.eq.label + ": " + s.entry_name(static_cast<int>(i)) + " is not finite at t = " +
@@ -215,13 +226,38 @@ void SymmetricMatrixOdeSolver::advance(double t, Eigen::MatrixXd& x) {
   unpack_symmetric(s.y.data(), x);
 }
 
-double SymmetricMatrixOdeSolver::time() const { return impl_->ode->time(); }
+double SymmetricMatrixOdeSolver::time() const { return impl_->rk ? impl_->rk->time() : impl_->ode->time(); }
 
 SymmetricOdeStats SymmetricMatrixOdeSolver::stats() const {
   SymmetricOdeStats st;
-  static_cast<OdeStats&>(st) = impl_->ode->stats();
+  static_cast<OdeStats&>(st) = impl_->rk ? impl_->rk->stats() : impl_->ode->stats();
   st.factorizations = impl_->factorizations;
   return st;
+}
+
+SchemeProbe probe_symmetric_ode(const SymmetricMatrixOde& eq, double t_from, const Eigen::MatrixXd& x_from,
+                                double t_to) {
+  eq.validate();
+  const int n = eq.n, k = eq.quadratic_rank;
+  std::vector<Eigen::MatrixXd> samples;
+  Eigen::MatrixXd F(n, n), G(n, k), W(k, k);
+  for (double t : {t_from, 0.5 * (t_from + t_to), t_to}) {
+    eq.F(t, F);
+    samples.push_back(F);
+  }
+  SchemeProbe p = probe_scheme(samples, t_to - t_from);
+  if (p.scheme == OdeScheme::RungeKutta && k > 0 && x_from.rows() == n && x_from.cols() == n) {
+    // The quadratic term at the start may make the equation stiff (a strong measurement damps
+    // the modes it sees) but never makes a slow plant oscillate: it can only veto the pair.
+    eq.F(t_from, F);
+    eq.G(t_from, G);
+    eq.W(t_from, W);
+    const Eigen::MatrixXd XG = x_from * G;
+    const SchemeProbe closed = probe_scheme({F - XG * W * G.transpose()}, t_to - t_from);
+    if (!(closed.decay <= kExplicitMaxDecayRatio * p.frequency)) p.scheme = OdeScheme::Bdf;
+    p.decay = std::max(p.decay, closed.decay);
+  }
+  return p;
 }
 
 Eigen::MatrixXd solve_symmetric_ode(const SymmetricMatrixOde& equation, const OdeOptions& options, double t_from,

@@ -29,6 +29,7 @@
 
 #include "model/system.hpp"
 #include "propagation/ode_integrator.hpp"
+#include "propagation/scheme_probe.hpp"
 
 namespace ordex {
 
@@ -86,6 +87,13 @@ class SymmetricMatrixOdeSolver {
   struct Impl;
   std::unique_ptr<Impl> impl_;
 };
+
+/// The scheme the probe (scheme_probe.hpp) picks for EQUATION integrated from X_FROM at T_FROM
+/// toward T_TO: from F at T_FROM, the middle and T_TO; when that says RungeKutta, Fc = F - X G W G'
+/// at T_FROM (with X_FROM) may still veto it by a stiff decay (at most four small eigenvalue
+/// problems). Calls the coefficient callbacks; throws what they throw.
+SchemeProbe probe_symmetric_ode(const SymmetricMatrixOde& equation, double t_from, const Eigen::MatrixXd& x_from,
+                                double t_to);
 
 /// X(T_TO) from X(T_FROM) = X_FROM in one call (either direction). STATS may be null.
 Eigen::MatrixXd solve_symmetric_ode(const SymmetricMatrixOde& equation, const OdeOptions& options, double t_from,

@@ -1,6 +1,7 @@
 // The Riccati equation itself, integrated backwards from t1 by the engine's symmetric matrix
-// equation service (propagation/symmetric_matrix_ode.hpp, CVODE BDF with the exact Schur-based
-// Lyapunov preconditioner). In the service's form dP/dt = F P + P F' + S - P G W G' P:
+// equation service (propagation/symmetric_matrix_ode.hpp): CVODE BDF with the exact Schur-based
+// Lyapunov preconditioner, or an explicit Runge-Kutta pair for a lightly damped, oscillating plant, as the
+// service's probe picks (scheme_probe.hpp) unless PropagationOptions::method names one. In the service's form dP/dt = F P + P F' + S - P G W G' P:
 //   -dP/dt = A~'P + P A~ + Q~ - P B R^-1 B' P,  A~ = A - B R^-1 N',  Q~ = Q - N R^-1 N'
 // (the cross weight N folded in), so F = -A~', S = -Q~, G = B, W = -R^-1, and the service's
 // closed-loop matrix F - P G W G' is -(A - B K)'.
@@ -63,15 +64,18 @@ void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOpti
   // back, so a model defined only on the window (a table with outside = "error") is never
   // evaluated beyond it.
   eq.breakpoints.insert(eq.breakpoints.end(), {t0, t1});
-  eq.label = "Riccati equation (CVODE BDF)";
   eq.symbol = "P";
-  // The route is BDF whatever PropagationOptions::method says (riccati_solver.hpp).
-  OdeOptions ode = ode_options(options.propagation, OdeScheme::Bdf);
-  ode.scheme = OdeScheme::Bdf;
-  SymmetricMatrixOdeSolver solver(std::move(eq), ode);
-
   Eigen::MatrixXd P = w.Qf.at(t1);
   P = (0.5 * (P + P.transpose())).eval();  // eval: in place it would alias
+  // adams or bdf as PropagationOptions::method says; any other method (auto, the Magnus ones,
+  // which have no meaning here) leaves the choice to the probe.
+  OdeOptions ode = ode_options(options.propagation, OdeScheme::Bdf);
+  const Method asked = options.propagation.method;
+  if (asked != Method::Adams && asked != Method::Bdf) ode.scheme = probe_symmetric_ode(eq, t1, P, t0).scheme;
+  const std::string engine = scheme_engine_name(ode.scheme);
+  eq.label = "Riccati equation (" + engine + ")";
+  SymmetricMatrixOdeSolver solver(std::move(eq), ode);
+
   sol.P.back() = P;
   solver.start(t1, P);
   const std::size_t count = sol.nodes.size();
@@ -81,7 +85,7 @@ void solve_by_riccati_ode(const System& sys, const Weights& w, const RiccatiOpti
     if (options.propagation.progress) options.propagation.progress(double(count - 1 - i) / double(count - 1));
   }
   const SymmetricOdeStats st = solver.stats();
-  sol.stats.engine = "cvode-bdf";
+  sol.stats.engine = engine;
   sol.stats.steps = st.steps;
   sol.stats.evaluations = st.rhs_evaluations;
   sol.stats.linear_iterations = st.linear_iterations;

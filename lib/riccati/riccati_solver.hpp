@@ -20,7 +20,7 @@
 namespace ordex {
 
 enum class RiccatiSolver {
-  RiccatiOde,  ///< "ode": CVODE BDF on the Riccati equation itself
+  RiccatiOde,  ///< "ode": the Riccati equation itself (CVODE BDF, or the probe's scheme_probe.hpp choice)
   Hamiltonian  ///< "hamiltonian": engine + stepwise Davison-Maki recursion
 };
 
@@ -36,7 +36,9 @@ struct RiccatiOptions {
   /// stiff plants (docs/performance.md). Hamiltonian is the cross-check.
   RiccatiSolver solver = RiccatiSolver::RiccatiOde;
   /// Engine method and tolerances. The Hamiltonian route hands them to the Propagator; the
-  /// ODE route uses rtol and atol for CVODE BDF (its method field is ignored). Defaults as
+  /// ODE route uses rtol and atol, and its scheme is CVODE Adams or BDF when method names one,
+  /// otherwise the symmetric matrix service's probe picks BDF or, for a lightly damped plant
+  /// oscillating over the horizon, the explicit Runge-Kutta pair (scheme_probe.hpp). Defaults as
   /// PropagationOptions (auto, 1e-8, 1e-10).
   PropagationOptions propagation;
   /// Least number of intervals of the dense grid on which P is stored (each output interval is
@@ -53,7 +55,7 @@ struct RiccatiOptions {
 /// What the solver did.
 struct RiccatiStats {
   RiccatiSolver solver = RiccatiSolver::Hamiltonian;
-  std::string engine;            ///< "cvode-bdf" or the engine method (magnus4, ...)
+  std::string engine;            ///< "cvode-bdf", "cvode-adams", "rkf78" or the engine method (magnus4, ...)
   long steps = 0;                ///< accepted integrator steps
   long evaluations = 0;          ///< right-hand side or generator evaluations
   long linear_iterations = 0;    ///< GMRES iterations (ODE route)

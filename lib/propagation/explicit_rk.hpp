@@ -1,0 +1,41 @@
+#pragma once
+// An explicit embedded Runge-Kutta-Fehlberg 7(8) integrator (Fehlberg, NASA TR R-287, 1968;
+// Boost.Odeint's runge_kutta_fehlberg78 with its step-size controller) on plain arrays, for the
+// non-stiff, oscillating equations where CVODE is slow: on a lightly damped structure CVODE's
+// Adams and BDF are held to a fraction of a radian per step by their stability regions on the
+// imaginary axis, while this method takes a few radians per step (docs/performance.md, "The
+// Riccati family on the flexible stack"). Same contract as OdeIntegrator (reset, advance to each
+// target, breakpoints landed on with the coefficients taken from the side being integrated,
+// step limit, non-finite values named); no dense output, so every target is a step end.
+#include <functional>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "propagation/ode_integrator.hpp"
+
+namespace ordex {
+
+class ExplicitRk {
+ public:
+  /// Uses PROBLEM's size, rhs, breakpoints, name_of and label (not the BDF callbacks or on_step),
+  /// and OPTIONS' rtol, atol, max_steps, max_step and initial_step.
+  ExplicitRk(OdeProblem problem, OdeOptions options);
+  ~ExplicitRk();
+  ExplicitRk(const ExplicitRk&) = delete;
+  ExplicitRk& operator=(const ExplicitRk&) = delete;
+
+  /// Starts (or restarts) at T0 with Y0 (size() values).
+  void reset(double t0, const double* y0);
+  /// Integrates to T (either direction), writing y(T) into Y; throws NumericalError naming the
+  /// unknown and t when a value stops being finite, or after OdeOptions::max_steps steps.
+  void advance(double t, double* y);
+  double time() const;
+  OdeStats stats() const;
+
+ private:
+  struct Impl;
+  std::unique_ptr<Impl> impl_;
+};
+
+}  // namespace ordex

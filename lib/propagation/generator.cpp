@@ -35,7 +35,6 @@ Generator state_generator(const System& sys, double t0, double t1) {
 }
 
 void add_switching_times(Generator& g, const System& sys, double t0, double t1) {
-  g.window = std::pair{t0, t1};
   const std::vector<double> found = sys.switching_times(std::min(t0, t1), std::max(t0, t1), &g.notes);
   if (found.empty()) return;
   g.breakpoints.insert(g.breakpoints.end(), found.begin(), found.end());

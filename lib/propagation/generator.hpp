@@ -6,7 +6,6 @@
 #include <functional>
 #include <optional>
 #include <string>
-#include <utility>
 #include <vector>
 
 #include "model/system.hpp"
@@ -19,9 +18,6 @@ struct Generator {
   /// Ascending; steps land on them. Declared breakpoints, a linear table's sample times and the
   /// switching times found in the model's expressions over the window the generator was built for.
   std::vector<double> breakpoints;
-  /// The window [from, to] the generator was built for (state_generator with a window,
-  /// add_switching_times); Method::Auto probes G there. Empty when not known.
-  std::optional<std::pair<double, double>> window;
   /// G(t + period) = G(t) for all t (breakpoints repeat too); empty when not periodic.
   std::optional<double> period;
   std::string label = "A(t)";                             ///< names G in messages

@@ -81,29 +81,7 @@ class MagnusStepper : public StepperBase {
         h = hs * factor;
       }
       if (o_.max_step > 0) h = std::min(h, o_.max_step);
-      if (h < 64 * std::numeric_limits<double>::epsilon() * std::max(1.0, std::abs(t))) {
-        // The model's own diagnosis (an entry that is not finite or blows up just ahead) leads.
-        if (!last_trial_finite_)
-          throw NumericalError(with_diagnosis(g_, t, dir, g_.label + ": transition matrix is not finite at t = " +
-                                                              format_number(t) + " (steps rejected down to underflow)"));
-        throw NumericalError(with_diagnosis(g_, t, dir, g_.label + ": step size underflow at t = " + format_number(t)));
-      }
-      ++trials_here;
-      if (trials_here > o_.max_steps)
-        throw NumericalError(g_.label + ": more than PropagationOptions::max_steps = " +
-                             std::to_string(o_.max_steps) + " steps before t = " + format_number(b) +
-                             " (reached t = " + format_number(t) + ")");
-      // A window far longer than the step allows ends early with the projected count rather
-      // than grinding through max_steps: checked every 4096 trials at the current step size,
-      // with a 10x margin so that a transient of short steps is not mistaken for the pace.
-      if ((trials_here & 4095) == 0) {
-        const double projected = std::abs(b - t) / h;  // double: cannot overflow
-        if (projected > 10.0 * static_cast<double>(o_.max_steps - trials_here))
-          throw NumericalError(g_.label + ": the window to t = " + format_number(b) + " needs about " +
-                               format_number(projected) + " more steps of " + format_number(h) +
-                               " (reached t = " + format_number(t) +
-                               "), more than PropagationOptions::max_steps = " + std::to_string(o_.max_steps));
-      }
+      check_step_progress(g_, o_, t, b, h, ++trials_here, last_trial_finite_);
     }
     h_desired_ = h;
     if (progress) progress(b);

@@ -111,25 +111,7 @@ class RungeKutta8Stepper : public StepperBase {
         h = hs * std::min(factor, 0.9);
       }
       if (o_.max_step > 0) h = std::min(h, o_.max_step);
-      if (h < 64 * std::numeric_limits<double>::epsilon() * std::max(1.0, std::abs(t))) {
-        if (!last_trial_finite)
-          throw NumericalError(with_diagnosis(g_, t, dir, g_.label + ": transition matrix is not finite at t = " +
-                                                              format_number(t) + " (steps rejected down to underflow)"));
-        throw NumericalError(with_diagnosis(g_, t, dir, g_.label + ": step size underflow at t = " + format_number(t)));
-      }
-      ++trials_here;
-      if (trials_here > o_.max_steps)
-        throw NumericalError(g_.label + ": more than PropagationOptions::max_steps = " +
-                             std::to_string(o_.max_steps) + " steps before t = " + format_number(b) +
-                             " (reached t = " + format_number(t) + ")");
-      if ((trials_here & 4095) == 0) {
-        const double projected = std::abs(b - t) / h;
-        if (projected > 10.0 * static_cast<double>(o_.max_steps - trials_here))
-          throw NumericalError(g_.label + ": the window to t = " + format_number(b) + " needs about " +
-                               format_number(projected) + " more steps of " + format_number(h) +
-                               " (reached t = " + format_number(t) +
-                               "), more than PropagationOptions::max_steps = " + std::to_string(o_.max_steps));
-      }
+      check_step_progress(g_, o_, t, b, h, ++trials_here, last_trial_finite);
     }
     h_desired_ = h;
     if (progress) progress(b);

@@ -28,6 +28,14 @@ std::unique_ptr<StepperBase> make_runge_kutta8_stepper(const Generator& g, const
 std::unique_ptr<StepperBase> make_cvode_stepper(const Generator& g, const PropagationOptions& o,
                                                 bool stiff);
 
+/// The adaptive steppers' guards after each trial step (TRIALS counted in this leg, H the next
+/// step, T reached, B the leg's end): a NumericalError on step-size underflow (naming a
+/// non-finite last trial), beyond PropagationOptions::max_steps trials, or, every 4096 trials,
+/// when the steps still needed at the current size would exceed 10x the remaining budget (a
+/// window far too long ends at once with the projected count rather than grinding on).
+void check_step_progress(const Generator& g, const PropagationOptions& o, double t, double b, double h,
+                         long trials, bool last_trial_finite);
+
 /// Infinity norm (largest row sum of absolute values).
 inline double norm_inf(const Eigen::MatrixXd& m) { return m.cwiseAbs().rowwise().sum().maxCoeff(); }
 

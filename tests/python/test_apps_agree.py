@@ -34,7 +34,8 @@ def close(a, b, atol=0.0):
 
 def test_transition():
     model = os.path.join(MODELS, "mathieu.toml")
-    summary = app_json("ordex-propagate", "--model", model, "--from", 0, "--to", 2.5, "--set", "q=0.7")
+    summary = app_json("ordex-propagate", "--model", model, "--from", 0, "--to", 2.5, "--set", "q=0.7",
+                       "--threads", 1)  # one piece, as the binding integrates it
     r = ordex.transition(ordex.load_model(model, set={"q": 0.7}), 0.0, 2.5)
     close(r.phi, summary["phi"], atol=1e-15)
     assert r.steps == summary["steps"]
@@ -43,7 +44,7 @@ def test_transition():
 
 def test_floquet():
     model = os.path.join(MODELS, "mathieu.toml")
-    summary = app_json("ordex-propagate", "--model", model, "--floquet", "--set", "q=1.4")
+    summary = app_json("ordex-propagate", "--model", model, "--floquet", "--set", "q=1.4", "--threads", 1)
     f = ordex.floquet(ordex.load_model(model, set={"q": 1.4}))
     close(f.monodromy, summary["phi"], atol=1e-15)  # Phi over one period
     want = [complex(m["re"], m["im"]) for m in summary["floquet"]["multipliers"]]

@@ -1,0 +1,37 @@
+// The guards every adaptive stepper applies after a trial step (stepper.hpp).
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <string>
+
+#include "io/errors.hpp"
+#include "propagation/stepper.hpp"
+
+namespace ordex {
+
+void check_step_progress(const Generator& g, const PropagationOptions& o, double t, double b, double h,
+                         long trials, bool last_trial_finite) {
+  const double dir = b >= t ? 1.0 : -1.0;
+  if (h < 64 * std::numeric_limits<double>::epsilon() * std::max(1.0, std::abs(t))) {
+    // The model's own diagnosis (an entry that is not finite or blows up just ahead) leads.
+    if (!last_trial_finite)
+      throw NumericalError(with_diagnosis(g, t, dir, g.label + ": transition matrix is not finite at t = " +
+                                                         format_number(t) + " (steps rejected down to underflow)"));
+    throw NumericalError(with_diagnosis(g, t, dir, g.label + ": step size underflow at t = " + format_number(t)));
+  }
+  if (trials > o.max_steps)
+    throw NumericalError(g.label + ": more than PropagationOptions::max_steps = " + std::to_string(o.max_steps) +
+                         " steps before t = " + format_number(b) + " (reached t = " + format_number(t) + ")");
+  // Checked every 4096 trials at the current step size, with a 10x margin so that a transient
+  // of short steps is not mistaken for the pace.
+  if ((trials & 4095) == 0) {
+    const double projected = std::abs(b - t) / h;  // double: cannot overflow
+    if (projected > 10.0 * static_cast<double>(o.max_steps - trials))
+      throw NumericalError(g.label + ": the window to t = " + format_number(b) + " needs about " +
+                           format_number(projected) + " more steps of " + format_number(h) + " (reached t = " +
+                           format_number(t) + "), more than PropagationOptions::max_steps = " +
+                           std::to_string(o.max_steps));
+  }
+}
+
+}  // namespace ordex

@@ -20,6 +20,10 @@ from plot_support import DATA, MODELS, app, read_csv, run, write_input
 
 
 HDF5_BUILT = os.environ.get("ORDEX_HDF5", "ON").upper() not in ("OFF", "FALSE", "0")
+# Under AddressSanitizer (scripts/test-sanitizers.sh sets ORDEX_SANITIZED) freed memory waits in
+# the sanitizer's quarantine (256 MB by default), so a run's peak grows with the number of
+# allocations it makes, not with what it holds: the memory comparisons mean nothing there.
+SANITIZED = os.environ.get("ORDEX_SANITIZED", "") not in ("", "0")
 if HDF5_BUILT:
     import h5py
 
@@ -159,7 +163,8 @@ def test_discrete_model_streamed(path):
                                  "--hdf5", path("large.h5")])
     # 6000 intervals of phi (40 x 40) and gamma (40 x 3) are 80 MB of doubles; held in memory
     # they would raise the peak by that much over the 600-interval run. Streamed, the peak stays.
-    assert large - small < 20 * 1024, "peak memory grew from %d kB to %d kB" % (small, large)
+    if not SANITIZED:
+        assert large - small < 20 * 1024, "peak memory grew from %d kB to %d kB" % (small, large)
     expm = scipy.linalg.expm(A * h)
     gamma = np.linalg.solve(A, expm - np.eye(n)) @ B
     with h5py.File(path("large.h5"), "r") as f:
@@ -190,8 +195,9 @@ def test_response_streamed(path):
                                        "--hold", "zoh", "--samples", N, "--hdf5", path("r%d.h5" % N)])
     # 200,000 samples of 40 states are 64 MB of doubles; held in memory they would raise the
     # peak by about that much over the 20,000-sample run. Streamed, the peak stays.
-    assert runs[200001] - runs[20001] < 20 * 1024, \
-        "peak memory grew from %d kB to %d kB" % (runs[20001], runs[200001])
+    if not SANITIZED:
+        assert runs[200001] - runs[20001] < 20 * 1024, \
+            "peak memory grew from %d kB to %d kB" % (runs[20001], runs[200001])
     with h5py.File(path("r200001.h5"), "r") as f:
         g = f["run_1"]
         assert g["t"].shape == (200001,)

@@ -46,7 +46,7 @@ int main(int argc, char** argv) {
     options.propagation = setup.propagation;
     options.propagation.progress = progress_reporter("ordex-propagate");
     options.propagation.threads =
-        threads > 0 ? threads : static_cast<int>(std::clamp(std::thread::hardware_concurrency(), 1u, 4u));
+        threads != 0 ? threads : static_cast<int>(std::clamp(std::thread::hardware_concurrency(), 1u, 4u));
     options.floquet = floquet;
     // Without --csv only Phi(t1, t0) is wanted: no grid, so steps need not stop at samples.
     options.samples = common.csv.empty() && hdf5.empty() ? 0 : common.samples;

@@ -15,6 +15,7 @@ Generator block_generator(const WeightedPair& pair) {
   Generator g;
   const int n = pair.n;
   g.dim = 2 * n;
+  g.van_loan_half = n;  // q is symmetric (B B' or C' C): the steppers work on the blocks
   g.breakpoints = pair.breakpoints;
   g.label = "block generator [[A, Q], [0, -A']] of " + pair.label;
   auto a = pair.a;

@@ -21,6 +21,11 @@ struct Generator {
   /// G(t + period) = G(t) for all t (breakpoints repeat too); empty when not periodic.
   std::optional<double> period;
   std::string label = "A(t)";                             ///< names G in messages
+  /// When k > 0, G(t) = [[F, S], [0, -F']] for every t, with F and S k x k and S symmetric:
+  /// Van Loan's generator of a Gramian (dim = 2k). Every Magnus Omega built from it keeps the
+  /// form, so the steppers form commutators and products on the blocks (block_algebra.hpp):
+  /// a commutator costs 4 k x k products instead of 16. 0 (the default): a general G.
+  int van_loan_half = 0;
   /// Names the model entry that breaks down at or just beyond t in the given direction (+1/-1),
   /// or returns empty; may be empty itself (see with_diagnosis).
   std::function<std::string(double t, double direction)> diagnose;

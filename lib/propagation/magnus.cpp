@@ -3,10 +3,12 @@
 // 151-238, the schemes with two and three nodes). Steps are adaptive by step doubling: one step
 // of h against two of h/2; their difference over 2^p - 1 estimates the local error of the pair
 // of half steps, which is the result kept.
+#include <algorithm>
 #include <cmath>
 #include <limits>
 
 #include "io/errors.hpp"
+#include "propagation/block_algebra.hpp"
 #include "propagation/expm.hpp"
 #include "propagation/stepper.hpp"
 
@@ -16,11 +18,12 @@ namespace {
 class MagnusStepper : public StepperBase {
  public:
   MagnusStepper(const Generator& g, const PropagationOptions& o, int order)
-      : g_(g), o_(o), order_(order) {
+      : g_(g), o_(o), order_(order), split_(g.van_loan_half > 0 && 2 * g.van_loan_half == g.dim ? g.van_loan_half : 0) {
     const int n = g.dim;
     for (auto* m : {&a1_, &a2_, &a3_, &omega_, &c1_, &c2_, &t1_, &t2_, &full_, &h1_, &h2_,
                     &half_, &diff_, &xnew_, &err_, &delta_})
       m->resize(n, n);
+    work_.resize(split_, split_);
   }
 
   void advance(double a, double b, Eigen::MatrixXd& X, Eigen::MatrixXd& error, PropagationStats& stats,
@@ -33,6 +36,9 @@ class MagnusStepper : public StepperBase {
     if (!(h > 0)) h = initial_step(a, std::abs(span), stats);
     if (o_.max_step > 0) h = std::min(h, o_.max_step);
     const double p = order_;
+    // The carried X and error keep the step matrices' zero lower-left block when they start
+    // with one (a transition from the identity does); then their products go on the blocks.
+    xsplit_ = std::min(zero_lower_left_split(X, split_), zero_lower_left_split(error, split_));
     long steps_here = 0, trials_here = 0;
     while (dir * (b - t) > 0) {
       double remaining = std::abs(b - t);
@@ -54,10 +60,10 @@ class MagnusStepper : public StepperBase {
                     step(t + hd / 2, hd / 2, h2_, stats);
       double e = std::numeric_limits<double>::infinity();
       if (finite) {
-        half_.noalias() = h2_ * h1_;
+        block_product_into(half_, h2_, h1_, split_);
         diff_ = half_ - full_;
-        xnew_.noalias() = half_ * X;
-        err_.noalias() = diff_ * X;
+        block_product_into(xnew_, half_, X, xsplit_);
+        block_product_into(err_, diff_, X, xsplit_);
         err_ /= (std::pow(2.0, p) - 1.0);
         finite = xnew_.allFinite() && err_.allFinite();
         if (finite) e = weighted_rms(err_, xnew_);
@@ -68,7 +74,7 @@ class MagnusStepper : public StepperBase {
       factor = std::min(5.0, std::max(0.2, factor));
       if (e <= 1.0) {
         h_validated_ = true;
-        diff_.noalias() = half_ * error;
+        block_product_into(diff_, half_, error, xsplit_);
         error = diff_ + err_;
         X.swap(xnew_);
         t = last ? b : t + hd;
@@ -109,11 +115,12 @@ class MagnusStepper : public StepperBase {
     const bool finite = step(t, hd, half_, stats);
     embedded_ = false;
     if (!finite) return false;
-    xnew_.noalias() = half_ * X;
-    err_.noalias() = delta_ * xnew_;  // exp(Omega6) - exp(Omega4) ~ (Omega6 - Omega4) exp(Omega6)
+    block_product_into(xnew_, half_, X, xsplit_);
+    // exp(Omega6) - exp(Omega4) ~ (Omega6 - Omega4) exp(Omega6)
+    block_product_into(err_, delta_, xnew_, xsplit_);
     if (!xnew_.allFinite() || !err_.allFinite()) return false;
     if (!(weighted_rms(err_, xnew_) <= 1.0)) return false;
-    diff_.noalias() = half_ * error;
+    block_product_into(diff_, half_, error, xsplit_);
     error = diff_ + err_;
     X.swap(xnew_);
     return true;
@@ -150,8 +157,7 @@ class MagnusStepper : public StepperBase {
       require_finite_generator(a2_, t + (0.5 + d) * h, h);
       // Omega = h/2 (A1 + A2) + sqrt(3) h^2 / 12 [A2, A1]
       omega_ = (0.5 * h) * (a1_ + a2_);
-      c1_.noalias() = a2_ * a1_;
-      c1_.noalias() -= a1_ * a2_;
+      van_loan_commutator_into(c1_, a2_, a1_, split_, work_);
       omega_ += (std::sqrt(3.0) * h * h / 12.0) * c1_;
     } else {
       const double d = std::sqrt(15.0) / 10.0;
@@ -170,18 +176,16 @@ class MagnusStepper : public StepperBase {
       al1 = h * a2_;
       al2 = (std::sqrt(15.0) * h / 3.0) * (a3_ - a1_);
       a3_ = (10.0 * h / 3.0) * (a3_ - 2.0 * a2_ + a1_);  // alpha3, reusing A3's storage
-      c1_.noalias() = al1 * al2;
-      c1_.noalias() -= al2 * al1;
+      van_loan_commutator_into(c1_, al1, al2, split_, work_);
       a1_ = 2.0 * a3_ + c1_;  // 2 alpha3 + C1
-      c2_.noalias() = al1 * a1_;
-      c2_.noalias() -= a1_ * al1;
+      van_loan_commutator_into(c2_, al1, a1_, split_, work_);
       c2_ *= -1.0 / 60.0;
       a1_ = -20.0 * al1 - a3_ + c1_;  // left factor
       a2_ = al2 + c2_;                // right factor
       omega_ = al1 + a3_ / 12.0;
       if (embedded_) delta_ = omega_ - c1_ / 12.0;  // Omega4 = alpha1 + alpha3/12 - C1/12
-      omega_.noalias() += (1.0 / 240.0) * (a1_ * a2_);
-      omega_.noalias() -= (1.0 / 240.0) * (a2_ * a1_);
+      van_loan_commutator_into(c2_, a1_, a2_, split_, work_);  // C2 is in a2_ now
+      omega_ += (1.0 / 240.0) * c2_;
       if (embedded_) delta_ = omega_ - delta_;      // Omega6 - Omega4
     }
     if (!omega_.allFinite()) return false;
@@ -192,6 +196,9 @@ class MagnusStepper : public StepperBase {
   Generator g_;
   PropagationOptions o_;
   int order_;
+  Eigen::Index split_;       // G's Van Loan half (Generator::van_loan_half), 0 for a general G
+  Eigen::Index xsplit_ = 0;  // split_ when this leg's X and error are block upper triangular
+  Eigen::MatrixXd work_;     // split_ x split_ scratch of the commutators
   double h_desired_ = 0;
   bool h_validated_ = false;  // a step of about h_desired_ has passed the error test
   bool embedded_ = false;     // step() also forms delta_ = Omega6 - Omega4

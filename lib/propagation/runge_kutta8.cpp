@@ -15,6 +15,7 @@
 #include <limits>
 
 #include "io/errors.hpp"
+#include "propagation/block_algebra.hpp"
 #include "propagation/stepper.hpp"
 
 namespace ordex {
@@ -48,7 +49,8 @@ class RungeKutta8Stepper : public StepperBase {
   using Mat = Eigen::Matrix<double, N, N>;
 
  public:
-  RungeKutta8Stepper(const Generator& g, const PropagationOptions& o) : g_(g), o_(o) {
+  RungeKutta8Stepper(const Generator& g, const PropagationOptions& o)
+      : g_(g), o_(o), split_(g.van_loan_half > 0 && 2 * g.van_loan_half == g.dim ? g.van_loan_half : 0) {
     const int n = g.dim;
     for (auto& k : k_) k.resize(n, n);
     for (auto* m : {&y_, &ai_, &s_, &e5_, &xnew_, &err_, &carry_, &x_, &error_}) m->resize(n, n);
@@ -59,6 +61,9 @@ class RungeKutta8Stepper : public StepperBase {
     if (b == a) return;
     x_ = X;
     error_ = error;
+    // Stage values and S keep G's zero lower-left block; so do X and error when they start
+    // with one (a transition from the identity does), and then their products go on blocks.
+    xsplit_ = std::min(zero_lower_left_split(x_, split_), zero_lower_left_split(error_, split_));
     advance_leg(a, b, stats, progress);
     X = x_;
     error = error_;
@@ -86,8 +91,8 @@ class RungeKutta8Stepper : public StepperBase {
       double e = std::numeric_limits<double>::infinity();
       bool finite = step(t, hd, stats);
       if (finite) {
-        xnew_.noalias() = s_ * X;
-        err_.noalias() = e5_ * X;
+        block_product_into(xnew_, s_, X, xsplit_);
+        block_product_into(err_, e5_, X, xsplit_);
         err_ *= e5_scale_;
         finite = xnew_.allFinite() && err_.allFinite();
         if (finite) e = weighted_rms(err_, xnew_);
@@ -98,7 +103,7 @@ class RungeKutta8Stepper : public StepperBase {
       double factor = e > 0 ? 0.9 * std::pow(e, -1.0 / 8.0) : 10.0;
       factor = std::min(10.0, std::max(0.2, factor));
       if (e <= 1.0) {
-        carry_.noalias() = s_ * error;
+        block_product_into(carry_, s_, error, xsplit_);
         error = carry_ + err_;
         X.swap(xnew_);
         t = last ? b : t + hd;
@@ -154,7 +159,7 @@ class RungeKutta8Stepper : public StepperBase {
       for (int j = 0; j < i; ++j)
         if (kA[i][j] != 0) y_ += (h * kA[i][j]) * k_[j];
       eval_checked(t + kC[i] * h, h, stats);
-      k_[i].noalias() = ai_ * y_;
+      block_product_into(k_[i], ai_, y_, split_);
     }
     s_.setIdentity();
     e5_.setZero();
@@ -176,6 +181,8 @@ class RungeKutta8Stepper : public StepperBase {
 
   Generator g_;
   PropagationOptions o_;
+  Eigen::Index split_;       // G's Van Loan half (Generator::van_loan_half), 0 for a general G
+  Eigen::Index xsplit_ = 0;  // split_ when this leg's X and error are block upper triangular
   double h_desired_ = 0;
   double e5_scale_ = 1;
   std::array<Mat, kStages> k_;

@@ -207,6 +207,7 @@ Problem second_order_problem(const std::string& name, const std::string& descrip
   for (Eigen::Index i = 0; i < m; ++i) names.push_back("q" + std::to_string(i + 1));
   for (Eigen::Index i = 0; i < m; ++i) names.push_back("v" + std::to_string(i + 1));
   auto sys = std::make_unique<ordex::FunctionSystem>(names, name);
+  sys->set_concurrent_callbacks(true);  // the callback holds its own copies: --threads may fork it
   sys->set_A([k0, k1, w, c, m](double t, ordex::MatrixRef out) {
     out.setZero();
     out.topRightCorner(m, m).setIdentity();
@@ -304,6 +305,7 @@ Problem random_problem(int n) {
   std::vector<std::string> names;
   for (int i = 0; i < n; ++i) names.push_back("x" + std::to_string(i + 1));
   auto sys = std::make_unique<ordex::FunctionSystem>(names, "smooth random A(t)");
+  sys->set_concurrent_callbacks(true);  // the matrices are only read: --threads may fork it
   sys->set_A([mats, w1, w2](double t, ordex::MatrixRef out) {
     out = (*mats)[0] + std::sin(w1 * t) * (*mats)[1] + std::cos(w2 * t) * (*mats)[2];
   });

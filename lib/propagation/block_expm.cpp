@@ -68,21 +68,20 @@ void BlockTriangularPade::compute(const Eigen::MatrixXd& m, Eigen::Index k, cons
   if (degree == 13) {
     multiply(a2_, a2_, a4_);
     multiply(a4_, a2_, a6_);
-    combine(tmp_, b[13], a6_, b[11], a4_, b[9], a2_, 0.0);
-    multiply(a6_, tmp_, p_);
-    add_scaled(p_, b[7], a6_);
-    add_scaled(p_, b[5], a4_);
-    add_scaled(p_, b[3], a2_);
-    p_.x.diagonal().array() += b[1];
-    p_.z.diagonal().array() += b[1];
+    // OUT = A6 (b[12+o] A6 + b[10+o] A4 + b[8+o] A2) + b[6+o] A6 + b[4+o] A4 + b[2+o] A2 + b[o] I:
+    // the odd part's polynomial (o = 1, then U = A OUT) and the even part V (o = 0).
+    const auto even_powers = [&](Blocks& out, int o) {
+      combine(tmp_, b[12 + o], a6_, b[10 + o], a4_, b[8 + o], a2_, 0.0);
+      multiply(a6_, tmp_, out);
+      add_scaled(out, b[6 + o], a6_);
+      add_scaled(out, b[4 + o], a4_);
+      add_scaled(out, b[2 + o], a2_);
+      out.x.diagonal().array() += b[o];
+      out.z.diagonal().array() += b[o];
+    };
+    even_powers(p_, 1);
     multiply(a_, p_, u_);
-    combine(tmp_, b[12], a6_, b[10], a4_, b[8], a2_, 0.0);
-    multiply(a6_, tmp_, v_);
-    add_scaled(v_, b[6], a6_);
-    add_scaled(v_, b[4], a4_);
-    add_scaled(v_, b[2], a2_);
-    v_.x.diagonal().array() += b[0];
-    v_.z.diagonal().array() += b[0];
+    even_powers(v_, 0);
   } else {
     // U = A sum b_{2j+1} A^{2j}, V = sum b_{2j} A^{2j}, powers built up as needed.
     set_identity_multiple(p_, b[1], k, l);

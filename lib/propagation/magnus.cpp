@@ -41,13 +41,9 @@ class MagnusStepper : public StepperBase {
     xsplit_ = std::min(zero_lower_left_split(X, split_), zero_lower_left_split(error, split_));
     long steps_here = 0, trials_here = 0;
     while (dir * (b - t) > 0) {
-      double remaining = std::abs(b - t);
-      bool last = false;
-      double hs = h;
-      if (hs >= remaining * (1 - 1e-12)) { hs = remaining; last = true; }
-      else if (hs > 0.7 * remaining) hs = 0.5 * remaining;  // avoid a sliver at the end
-      const double hd = dir * hs;
-      if (order_ == 6 && last && h_validated_ && hs <= 0.5 * h && short_leg(t, hd, X, error, stats)) {
+      const TrialStep trial = propose_step(h, std::abs(b - t), dir);
+      const double hd = trial.signed_length;
+      if (order_ == 6 && trial.last && h_validated_ && trial.size <= 0.5 * h && short_leg(t, hd, X, error, stats)) {
         t = b;
         ++stats.steps;
         ++steps_here;
@@ -77,14 +73,10 @@ class MagnusStepper : public StepperBase {
         block_product_into(diff_, half_, error, xsplit_);
         error = diff_ + err_;
         X.swap(xnew_);
-        t = last ? b : t + hd;
-        ++stats.steps;
-        ++steps_here;
-        if (!last || factor < 1) h = hs * factor;  // keep the long step for the next leg
-        if (progress && (steps_here & 63) == 0) progress(t);
+        accept_step(trial, b, factor, t, h, steps_here, stats, progress);
       } else {
         ++stats.rejected_steps;
-        h = hs * factor;
+        h = trial.size * factor;
       }
       if (o_.max_step > 0) h = std::min(h, o_.max_step);
       check_step_progress(g_, o_, t, b, h, ++trials_here, last_trial_finite_);

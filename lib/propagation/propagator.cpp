@@ -10,7 +10,7 @@
 
 namespace ordex {
 
-Method resolve_auto_method(const Generator&, double, double) {
+Method resolve_auto_method() {
   // Magnus order 6 stays the default. The order-8 Runge-Kutta (Method::Rk8) is faster at
   // matched accuracy on smooth and lightly damped plants (docs/performance.md, issue 9), but at
   // equal tolerances its global error is far larger: on the 40-state flexible stack at rtol
@@ -29,7 +29,7 @@ Propagator::Propagator(Generator generator, PropagationOptions options)
     if (!std::isfinite(bp)) throw InputError(generator_.label + ": a breakpoint is not finite");
   std::sort(generator_.breakpoints.begin(), generator_.breakpoints.end());
   Method m = options_.method;
-  if (m == Method::Auto) m = resolve_auto_method(generator_, 0, 0);
+  if (m == Method::Auto) m = resolve_auto_method();
   stats_.method = m;
   switch (m) {
     case Method::Magnus4: stepper_ = make_magnus_stepper(generator_, options_, 4); break;

@@ -73,7 +73,8 @@ class Propagator {
   std::vector<Propagator> helpers_;  // one per extra thread, on forked generators
 };
 
-/// Picks the method that Method::Auto stands for, by the rule documented in the README.
-Method resolve_auto_method(const Generator& g, double t0, double t1);
+/// The method that Method::Auto stands for, by the rule documented in the README (the same for
+/// every plant: docs/performance.md, "What `auto` chooses").
+Method resolve_auto_method();
 
 }  // namespace ordex

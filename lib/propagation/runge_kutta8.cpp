@@ -82,12 +82,8 @@ class RungeKutta8Stepper : public StepperBase {
     long steps_here = 0, trials_here = 0;
     bool last_trial_finite = true;
     while (dir * (b - t) > 0) {
-      const double remaining = std::abs(b - t);
-      bool last = false;
-      double hs = h;
-      if (hs >= remaining * (1 - 1e-12)) { hs = remaining; last = true; }
-      else if (hs > 0.7 * remaining) hs = 0.5 * remaining;  // avoid a sliver at the end
-      const double hd = dir * hs;
+      const TrialStep trial = propose_step(h, std::abs(b - t), dir);
+      const double hd = trial.signed_length;
       double e = std::numeric_limits<double>::infinity();
       bool finite = step(t, hd, stats);
       if (finite) {
@@ -106,14 +102,10 @@ class RungeKutta8Stepper : public StepperBase {
         block_product_into(carry_, s_, error, xsplit_);
         error = carry_ + err_;
         X.swap(xnew_);
-        t = last ? b : t + hd;
-        ++stats.steps;
-        ++steps_here;
-        if (!last || factor < 1) h = hs * factor;  // keep the long step for the next leg
-        if (progress && (steps_here & 63) == 0) progress(t);
+        accept_step(trial, b, factor, t, h, steps_here, stats, progress);
       } else {
         ++stats.rejected_steps;
-        h = hs * std::min(factor, 0.9);
+        h = trial.size * std::min(factor, 0.9);
       }
       if (o_.max_step > 0) h = std::min(h, o_.max_step);
       check_step_progress(g_, o_, t, b, h, ++trials_here, last_trial_finite);

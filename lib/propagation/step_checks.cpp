@@ -1,4 +1,5 @@
-// The guards every adaptive stepper applies after a trial step (stepper.hpp).
+// The step proposal, the accepted-step bookkeeping and the guards every adaptive stepper
+// applies after a trial step (stepper.hpp).
 #include <algorithm>
 #include <cmath>
 #include <limits>
@@ -8,6 +9,28 @@
 #include "propagation/stepper.hpp"
 
 namespace ordex {
+
+TrialStep propose_step(double h, double remaining, double dir) {
+  TrialStep s;
+  s.size = h;
+  if (h >= remaining * (1 - 1e-12)) {
+    s.size = remaining;
+    s.last = true;
+  } else if (h > 0.7 * remaining) {
+    s.size = 0.5 * remaining;  // avoid a sliver at the end
+  }
+  s.signed_length = dir * s.size;
+  return s;
+}
+
+void accept_step(const TrialStep& trial, double b, double factor, double& t, double& h, long& steps_here,
+                 PropagationStats& stats, const std::function<void(double)>& progress) {
+  t = trial.last ? b : t + trial.signed_length;
+  ++stats.steps;
+  ++steps_here;
+  if (!trial.last || factor < 1) h = trial.size * factor;  // keep the long step for the next leg
+  if (progress && (steps_here & 63) == 0) progress(t);
+}
 
 void check_step_progress(const Generator& g, const PropagationOptions& o, double t, double b, double h,
                          long trials, bool last_trial_finite) {

@@ -28,6 +28,25 @@ std::unique_ptr<StepperBase> make_runge_kutta8_stepper(const Generator& g, const
 std::unique_ptr<StepperBase> make_cvode_stepper(const Generator& g, const PropagationOptions& o,
                                                 bool stiff);
 
+/// One trial step of an adaptive stepper from t towards a leg's end b.
+struct TrialStep {
+  double size = 0;    ///< |length|
+  double signed_length = 0;
+  bool last = false;  ///< reaches b
+};
+
+/// The trial for the wanted step size H with REMAINING = |b - t| left (DIR = +1 or -1): H itself,
+/// or the rest when H covers it, or half the rest when H would leave a sliver under 0.3 H.
+TrialStep propose_step(double h, double remaining, double dir);
+
+/// The bookkeeping of an accepted trial, the same in every adaptive stepper: T moves by the
+/// trial (to B exactly when it is the last), the step counters advance, the next step size H
+/// becomes the trial's size times FACTOR (a leg's last step, shortened to land on B, keeps the
+/// longer H for the next leg unless the error asks for less) and PROGRESS, when set, hears of
+/// it every 64 steps of the leg.
+void accept_step(const TrialStep& trial, double b, double factor, double& t, double& h, long& steps_here,
+                 PropagationStats& stats, const std::function<void(double)>& progress);
+
 /// The adaptive steppers' guards after each trial step (TRIALS counted in this leg, H the next
 /// step, T reached, B the leg's end): a NumericalError on step-size underflow (naming a
 /// non-finite last trial), beyond PropagationOptions::max_steps trials, or, every 4096 trials,

@@ -57,7 +57,7 @@ class FloquetJob : public SweepJob {
   }
   std::string method(const System& sys) const override {
     const Method m = o_.propagation.method;
-    return method_name(m == Method::Auto ? resolve_auto_method(state_generator(sys, t0_, t1_), t0_, t1_) : m);
+    return method_name(m == Method::Auto ? resolve_auto_method() : m);
   }
 
  private:

@@ -83,14 +83,14 @@ struct ExplicitRk::Impl {
 };
 
 ExplicitRk::ExplicitRk(OdeProblem problem, OdeOptions options) : impl_(std::make_unique<Impl>()) {
-  options.validate();
-  if (problem.size < 1 || !problem.rhs) throw InputError(problem.label + ": empty ODE problem");
-  impl_->problem = std::move(problem);
+  impl_->problem = checked_problem(std::move(problem), options);
   impl_->options = options;
-  auto& bp = impl_->problem.breakpoints;
-  std::sort(bp.begin(), bp.end());
-  bp.erase(std::unique(bp.begin(), bp.end()), bp.end());
   impl_->y.resize(static_cast<std::size_t>(impl_->problem.size));
+}
+
+std::unique_ptr<OdeSolver> make_ode_solver(OdeProblem problem, OdeOptions options) {
+  if (options.scheme == OdeScheme::RungeKutta) return std::make_unique<ExplicitRk>(std::move(problem), options);
+  return std::make_unique<OdeIntegrator>(std::move(problem), options);
 }
 
 ExplicitRk::~ExplicitRk() = default;

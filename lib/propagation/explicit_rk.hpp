@@ -16,22 +16,20 @@
 
 namespace ordex {
 
-class ExplicitRk {
+class ExplicitRk final : public OdeSolver {
  public:
   /// Uses PROBLEM's size, rhs, breakpoints, name_of and label (not the BDF callbacks or on_step),
-  /// and OPTIONS' rtol, atol, max_steps, max_step and initial_step.
+  /// and OPTIONS' rtol, atol, max_steps, max_step and initial_step. A restart (reset) keeps the
+  /// last step size: a restart after a measurement update needs no ramp.
   ExplicitRk(OdeProblem problem, OdeOptions options);
-  ~ExplicitRk();
+  ~ExplicitRk() override;
   ExplicitRk(const ExplicitRk&) = delete;
   ExplicitRk& operator=(const ExplicitRk&) = delete;
 
-  /// Starts (or restarts) at T0 with Y0 (size() values).
-  void reset(double t0, const double* y0);
-  /// Integrates to T (either direction), writing y(T) into Y; throws NumericalError naming the
-  /// unknown and t when a value stops being finite, or after OdeOptions::max_steps steps.
-  void advance(double t, double* y);
-  double time() const;
-  OdeStats stats() const;
+  void reset(double t0, const double* y0) override;
+  void advance(double t, double* y) override;
+  double time() const override;
+  OdeStats stats() const override;
 
  private:
   struct Impl;

@@ -230,16 +230,20 @@ struct OdeIntegrator::Impl {
   }
 };
 
-OdeIntegrator::OdeIntegrator(OdeProblem problem, OdeOptions options) : impl_(std::make_unique<Impl>()) {
+OdeProblem checked_problem(OdeProblem problem, const OdeOptions& options) {
   options.validate();
-  if (options.scheme == OdeScheme::RungeKutta)
-    throw InputError(problem.label + ": OdeIntegrator runs CVODE (Adams or BDF); RungeKutta is ExplicitRk's");
   if (problem.size < 1 || !problem.rhs) throw InputError(problem.label + ": empty ODE problem");
-  impl_->problem = std::move(problem);
-  impl_->options = options;
-  auto& bp = impl_->problem.breakpoints;
+  auto& bp = problem.breakpoints;
   std::sort(bp.begin(), bp.end());
   bp.erase(std::unique(bp.begin(), bp.end()), bp.end());
+  return problem;
+}
+
+OdeIntegrator::OdeIntegrator(OdeProblem problem, OdeOptions options) : impl_(std::make_unique<Impl>()) {
+  if (options.scheme == OdeScheme::RungeKutta)
+    throw InputError(problem.label + ": OdeIntegrator runs CVODE (Adams or BDF); RungeKutta is ExplicitRk's");
+  impl_->problem = checked_problem(std::move(problem), options);
+  impl_->options = options;
   if (SUNContext_Create(nullptr, &impl_->ctx) != 0) throw NumericalError("SUNDIALS context failed");
   impl_->y = N_VNew_Serial(impl_->problem.size, impl_->ctx);
   impl_->ele = N_VNew_Serial(impl_->problem.size, impl_->ctx);

@@ -88,24 +88,45 @@ struct OdeStats {
   OdeStats& operator+=(const OdeStats& o);
 };
 
-class OdeIntegrator {
+/// What every integrator of an OdeProblem offers; the scheme is chosen once, at construction
+/// (make_ode_solver).
+class OdeSolver {
+ public:
+  virtual ~OdeSolver() = default;
+  /// Starts (or restarts) at t0 with y0 (size() values).
+  virtual void reset(double t0, const double* y0) = 0;
+  /// Integrates from the current time to T (forward or backward; the direction must not
+  /// change between resets), landing exactly on T and on every breakpoint on the way.
+  /// Writes y(T) into Y. Throws NumericalError "LABEL: ... at t = ..." on failure (a value
+  /// that stops being finite is named, and so is a step limit reached), or the exception a
+  /// callback threw.
+  virtual void advance(double t, double* y) = 0;
+  /// Current time.
+  virtual double time() const = 0;
+  /// Counts accumulated since construction.
+  virtual OdeStats stats() const = 0;
+};
+
+/// PROBLEM checked against OPTIONS (validated; a problem without unknowns or a right-hand side
+/// is an InputError) with its breakpoints sorted and merged: what every OdeSolver starts from.
+OdeProblem checked_problem(OdeProblem problem, const OdeOptions& options);
+
+/// The solver of OPTIONS.scheme: ExplicitRk for RungeKutta (explicit_rk.hpp), CVODE's
+/// OdeIntegrator for Adams and Bdf.
+std::unique_ptr<OdeSolver> make_ode_solver(OdeProblem problem, OdeOptions options);
+
+/// CVODE (Adams or BDF) on an OdeProblem.
+class OdeIntegrator final : public OdeSolver {
  public:
   OdeIntegrator(OdeProblem problem, OdeOptions options);
-  ~OdeIntegrator();
+  ~OdeIntegrator() override;
   OdeIntegrator(const OdeIntegrator&) = delete;
   OdeIntegrator& operator=(const OdeIntegrator&) = delete;
 
-  /// Starts (or restarts) at t0 with y0 (size() values).
-  void reset(double t0, const double* y0);
-  /// Integrates from the current time to T (forward or backward; the direction must not
-  /// change between resets), landing exactly on T and on every breakpoint on the way.
-  /// Writes y(T) into Y. Throws NumericalError "LABEL: ... at t = ..." on failure, or the
-  /// exception a callback threw.
-  void advance(double t, double* y);
-  /// Current time.
-  double time() const;
-  /// Counts accumulated since construction.
-  OdeStats stats() const;
+  void reset(double t0, const double* y0) override;
+  void advance(double t, double* y) override;
+  double time() const override;
+  OdeStats stats() const override;
 
  private:
   struct Impl;

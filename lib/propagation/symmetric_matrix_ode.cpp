@@ -58,8 +58,7 @@ struct SymmetricMatrixOdeSolver::Impl {
   long factorizations = 0;
   bool have_factor = false;  // false until a factorization succeeds (and after one fails)
   bool use_identity = false;
-  std::unique_ptr<OdeIntegrator> ode;  // CVODE (Adams or BDF), or
-  std::unique_ptr<ExplicitRk> rk;      // the explicit Runge-Kutta scheme
+  std::unique_ptr<OdeSolver> solver;  // CVODE (Adams or BDF) or the explicit Runge-Kutta scheme
   std::vector<double> y;
 
   explicit Impl(SymmetricMatrixOde e) : eq(std::move(e)), n(eq.n), k(eq.quadratic_rank) {
@@ -188,10 +187,7 @@ SymmetricMatrixOdeSolver::SymmetricMatrixOdeSolver(SymmetricMatrixOde equation, 
       unpack_symmetric(y, s->X);
       s->eq.on_step(t, s->X);
     };
-  if (options.scheme == OdeScheme::RungeKutta)
-    s->rk = std::make_unique<ExplicitRk>(std::move(p), options);
-  else
-    s->ode = std::make_unique<OdeIntegrator>(std::move(p), options);
+  s->solver = make_ode_solver(std::move(p), options);
 }
 
 SymmetricMatrixOdeSolver::~SymmetricMatrixOdeSolver() = default;
@@ -206,18 +202,12 @@ void SymmetricMatrixOdeSolver::start(double t, const Eigen::MatrixXd& x) {
   for (std::size_t i = 0; i < s.y.size(); ++i)
     if (!std::isfinite(s.y[i]))
       throw InputError(s.eq.label + ": the start value " + s.entry_name(static_cast<int>(i)) + " is not finite");
-  if (s.rk)
-    s.rk->reset(t, s.y.data());
-  else
-    s.ode->reset(t, s.y.data());
+  s.solver->reset(t, s.y.data());
 }
 
 void SymmetricMatrixOdeSolver::advance(double t, Eigen::MatrixXd& x) {
   Impl& s = *impl_;
-  if (s.rk)
-    s.rk->advance(t, s.y.data());
-  else
-    s.ode->advance(t, s.y.data());
+  s.solver->advance(t, s.y.data());
   for (std::size_t i = 0; i < s.y.size(); ++i)
     if (!std::isfinite(s.y[i]))
       throw NumericalError(s.eq.label + ": " + s.entry_name(static_cast<int>(i)) + " is not finite at t = " +
@@ -226,11 +216,11 @@ void SymmetricMatrixOdeSolver::advance(double t, Eigen::MatrixXd& x) {
   unpack_symmetric(s.y.data(), x);
 }
 
-double SymmetricMatrixOdeSolver::time() const { return impl_->rk ? impl_->rk->time() : impl_->ode->time(); }
+double SymmetricMatrixOdeSolver::time() const { return impl_->solver->time(); }
 
 SymmetricOdeStats SymmetricMatrixOdeSolver::stats() const {
   SymmetricOdeStats st;
-  static_cast<OdeStats&>(st) = impl_->rk ? impl_->rk->stats() : impl_->ode->stats();
+  static_cast<OdeStats&>(st) = impl_->solver->stats();
   st.factorizations = impl_->factorizations;
   return st;
 }

@@ -200,16 +200,17 @@ int main(int argc, char** argv) {
         o.propagation.atol = atol;
         o.dense_intervals = samples - 1;  // the dense grid is the sample grid
         start = Clock::now();
-        const char* label = s == RiccatiSolver::RiccatiOde ? "ode-bdf" : "hamiltonian";
+        std::string label = s == RiccatiSolver::RiccatiOde ? "ode" : "hamiltonian";
         try {
           RiccatiSolution sol = solve_riccati(*p.sys, p.w, times, o);
+          if (s == RiccatiSolver::RiccatiOde) label = "ode " + sol.stats.engine;  // the scheme the probe chose
           const double sec = std::chrono::duration<double>(Clock::now() - start).count();
           std::vector<Eigen::MatrixXd> at;
           for (std::size_t k = 0; k < times.size(); ++k) at.push_back(sol.P[sol.output_index[k]]);
-          std::printf("%-12s %-12s %7.0e %10.4f %8ld %10.2f %12.2e %10.1f\n", p.name.c_str(), label, rtol, sec,
+          std::printf("%-12s %-15s %7.0e %10.4f %8ld %10.2f %12.2e %10.1f\n", p.name.c_str(), label.c_str(), rtol, sec,
                       sol.stats.steps, 1e6 * sec / std::max(1L, sol.stats.steps), max_error(at, ref), base_s / sec);
         } catch (const std::exception& e) {
-          std::printf("%-12s %-12s %7.0e failed: %s\n", p.name.c_str(), label, rtol, e.what());
+          std::printf("%-12s %-12s %7.0e failed: %s\n", p.name.c_str(), label.c_str(), rtol, e.what());
         }
       }
     }

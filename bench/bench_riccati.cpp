@@ -176,7 +176,7 @@ int main(int argc, char** argv) {
   problems.push_back(chain(24));
   problems.push_back(rod(24));
   problems.push_back(rod(48));
-  std::printf("%-12s %-12s %7s %10s %8s %10s %12s %10s\n", "problem", "method", "rtol", "seconds", "steps",
+  std::printf("%-12s %-15s %7s %10s %8s %10s %12s %10s\n", "problem", "method", "rtol", "seconds", "steps",
               "us/step", "max rel err", "speedup");
   // An optional argument keeps only the problems whose name contains it ("rod", "n=48").
   const std::string only = argc > 1 ? argv[1] : "";
@@ -191,7 +191,7 @@ int main(int argc, char** argv) {
       auto start = Clock::now();
       auto base = odeint_solve(p, times, rtol, atol, steps);
       const double base_s = std::chrono::duration<double>(Clock::now() - start).count();
-      std::printf("%-12s %-12s %7.0e %10.4f %8ld %10.2f %12.2e %10s\n", p.name.c_str(), "odeint-rkf78", rtol,
+      std::printf("%-12s %-15s %7.0e %10.4f %8ld %10.2f %12.2e %10s\n", p.name.c_str(), "odeint-rkf78", rtol,
                   base_s, steps, 1e6 * base_s / steps, max_error(base, ref), "1.0");
       for (RiccatiSolver s : {RiccatiSolver::RiccatiOde, RiccatiSolver::Hamiltonian}) {
         RiccatiOptions o;
@@ -210,7 +210,7 @@ int main(int argc, char** argv) {
           std::printf("%-12s %-15s %7.0e %10.4f %8ld %10.2f %12.2e %10.1f\n", p.name.c_str(), label.c_str(), rtol, sec,
                       sol.stats.steps, 1e6 * sec / std::max(1L, sol.stats.steps), max_error(at, ref), base_s / sec);
         } catch (const std::exception& e) {
-          std::printf("%-12s %-12s %7.0e failed: %s\n", p.name.c_str(), label.c_str(), rtol, e.what());
+          std::printf("%-12s %-15s %7.0e failed: %s\n", p.name.c_str(), label.c_str(), rtol, e.what());
         }
       }
     }

@@ -45,3 +45,31 @@ def read_csv(path):
     with open(path) as f:
         header = f.readline().strip().split(",")
     return header, np.loadtxt(path, delimiter=",", skiprows=1, ndmin=2)
+
+
+def write_app_results(d):
+    """The app results both figure tests read, written into folder D: Mathieu's Phi (phi.csv, .json)
+    and Floquet analysis (floquet.json), the orbit's Gramian profile (profile.csv, .json), a
+    regulator's gains and P (K.csv, P.csv, regulate.json), a steady two-input history
+    (steady.csv), a constant plant's discrete model (discrete.csv, .json), a Mathieu chart
+    (chart.csv), a dispersed nonlinear batch (simulate.json) and a covariance analysis
+    (estimate.json)."""
+    import numpy as np
+    mathieu = os.path.join(MODELS, "mathieu.toml")
+    run(["ordex-propagate", "--model", mathieu, "--csv", f"{d}/phi.csv", "--samples", 41, "--json", f"{d}/phi.json"])
+    run(["ordex-propagate", "--model", mathieu, "--floquet", "--set", "q=1.4", "--json", f"{d}/floquet.json"])
+    run(["ordex-gramian", "--model", os.path.join(MODELS, "orbit_relative_motion.toml"), "--window-length", 1500,
+         "--csv", f"{d}/profile.csv", "--json", f"{d}/profile.json"])
+    run(["ordex-regulate", "--model", os.path.join(DATA, "riccati_tv.toml"), "--weights",
+         os.path.join(DATA, "riccati_tv_weights.toml"), "--samples", 31, "--csv", f"{d}/K.csv",
+         "--p-csv", f"{d}/P.csv", "--json", f"{d}/regulate.json"])
+    t = np.linspace(0, 6, 61)
+    write_input(f"{d}/steady.csv", t, [np.ones_like(t), 0.5 * np.ones_like(t)], ["t", "u1", "u2"])
+    run(["ordex-discretize", "--model", os.path.join(DATA, "response_constant.toml"), "--from", 0, "--to", 4,
+         "--step", 0.25, "--csv", f"{d}/discrete.csv", "--json", f"{d}/discrete.json"])
+    run(["ordex-sweep", "--model", mathieu, "--job", "floquet", "--grid", "a=0.2:2.2:6", "--grid", "q=0:1.5:4",
+         "--csv", f"{d}/chart.csv"])
+    run(["ordex-simulate", "--model", os.path.join(MODELS, "chaser_two_body.toml"), "--runs", 5, "--seed", 2,
+         "--disperse", os.path.join(MODELS, "chaser_dispersions.toml"), "--json", f"{d}/simulate.json"])
+    run(["ordex-estimate", "--model", os.path.join(MODELS, "sled_depth.toml"), "--noise",
+         os.path.join(MODELS, "sled_depth_noise.toml"), "--samples", 21, "--json", f"{d}/estimate.json"])

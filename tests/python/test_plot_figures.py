@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 import scipy.linalg
 
-from plot_support import DATA, MODELS, load_plot_module, read_csv, run, write_input
+from plot_support import DATA, load_plot_module, read_csv, run, write_app_results, write_input
 
 plot = load_plot_module()
 
@@ -30,28 +30,12 @@ CONSTANT = os.path.join(DATA, "response_constant.toml")
 def folder(tmp_path_factory):
     """Every kind of result, written by the apps once for the module."""
     d = str(tmp_path_factory.mktemp("figures"))
-    mathieu = os.path.join(MODELS, "mathieu.toml")
-    run(["ordex-propagate", "--model", mathieu, "--csv", f"{d}/phi.csv", "--samples", 41, "--json", f"{d}/phi.json"])
-    run(["ordex-propagate", "--model", mathieu, "--floquet", "--set", "q=1.4", "--json", f"{d}/floquet.json"])
-    run(["ordex-gramian", "--model", os.path.join(MODELS, "orbit_relative_motion.toml"), "--window-length", 1500,
-         "--csv", f"{d}/profile.csv", "--json", f"{d}/profile.json"])
-    run(["ordex-regulate", "--model", os.path.join(DATA, "riccati_tv.toml"), "--weights",
-         os.path.join(DATA, "riccati_tv_weights.toml"), "--samples", 31, "--csv", f"{d}/K.csv",
-         "--json", f"{d}/regulate.json"])
+    write_app_results(d)
     t = np.linspace(0, 6, 61)
-    write_input(f"{d}/steady.csv", t, [np.ones_like(t), 0.5 * np.ones_like(t)], ["t", "u1", "u2"])
     write_input(f"{d}/swept.csv", t, [np.sin(t), np.cos(2 * t)], ["t", "u1", "u2"])
     os.mkdir(f"{d}/runs")
     run(["ordex-respond", "--model", os.path.join(DATA, "response_pumped.toml"), "--input", f"{d}/steady.csv",
          "--input", f"{d}/swept.csv", "--x0", "0.2,0", "--csv", f"{d}/runs", "--json", f"{d}/respond.json"])
-    run(["ordex-discretize", "--model", CONSTANT, "--from", 0, "--to", 4, "--step", 0.25,
-         "--csv", f"{d}/discrete.csv", "--json", f"{d}/discrete.json"])
-    run(["ordex-sweep", "--model", mathieu, "--job", "floquet", "--grid", "a=0.2:2.2:6", "--grid", "q=0:1.5:4",
-         "--csv", f"{d}/chart.csv"])
-    run(["ordex-simulate", "--model", os.path.join(MODELS, "chaser_two_body.toml"), "--runs", 5, "--seed", 2,
-         "--disperse", os.path.join(MODELS, "chaser_dispersions.toml"), "--json", f"{d}/simulate.json"])
-    run(["ordex-estimate", "--model", os.path.join(MODELS, "sled_depth.toml"), "--noise",
-         os.path.join(MODELS, "sled_depth_noise.toml"), "--samples", 21, "--json", f"{d}/estimate.json"])
     return d
 
 

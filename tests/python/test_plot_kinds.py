@@ -8,10 +8,9 @@ import os
 import subprocess
 import xml.etree.ElementTree as ET
 
-import numpy as np
 import pytest
 
-from plot_support import BIN_DIR, DATA, MODELS, load_plot_module, read_csv, run, write_input
+from plot_support import BIN_DIR, DATA, load_plot_module, read_csv, run, write_app_results
 
 PLOT = os.path.join(BIN_DIR, "ordex-plot")
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
@@ -41,28 +40,11 @@ def load_json(path):
 def results(tmp_path_factory):
     """Every kind of result, written by the apps into a fresh folder."""
     d = str(tmp_path_factory.mktemp("kinds"))
-    mathieu = os.path.join(MODELS, "mathieu.toml")
-    run(["ordex-propagate", "--model", mathieu, "--csv", f"{d}/phi.csv", "--samples", 41, "--json", f"{d}/phi.json"])
-    run(["ordex-propagate", "--model", mathieu, "--floquet", "--set", "q=1.4", "--json", f"{d}/floquet.json"])
-    run(["ordex-gramian", "--model", os.path.join(MODELS, "orbit_relative_motion.toml"), "--window-length", 1500,
-         "--csv", f"{d}/profile.csv", "--json", f"{d}/profile.json"])
+    write_app_results(d)
     run(["ordex-gramian", "--model", os.path.join(DATA, "response_constant.toml"), "--from", 0, "--to", 2,
          "--samples", 11, "--csv", f"{d}/W.csv"])
-    run(["ordex-regulate", "--model", os.path.join(DATA, "riccati_tv.toml"), "--weights",
-         os.path.join(DATA, "riccati_tv_weights.toml"), "--samples", 31, "--csv", f"{d}/K.csv",
-         "--p-csv", f"{d}/P.csv", "--json", f"{d}/regulate.json"])
-    t = np.linspace(0, 6, 61)
-    write_input(f"{d}/steady.csv", t, [np.ones_like(t), 0.5 * np.ones_like(t)], ["t", "u1", "u2"])
     run(["ordex-respond", "--model", os.path.join(DATA, "response_pumped.toml"), "--input", f"{d}/steady.csv",
          "--x0", "0.2,0", "--csv", f"{d}/response.csv", "--json", f"{d}/respond.json"])
-    run(["ordex-discretize", "--model", os.path.join(DATA, "response_constant.toml"), "--from", 0, "--to", 4,
-         "--step", 0.25, "--csv", f"{d}/discrete.csv", "--json", f"{d}/discrete.json"])
-    run(["ordex-sweep", "--model", mathieu, "--job", "floquet", "--grid", "a=0.2:2.2:6", "--grid", "q=0:1.5:4",
-         "--csv", f"{d}/chart.csv"])
-    run(["ordex-simulate", "--model", os.path.join(MODELS, "chaser_two_body.toml"), "--runs", 5, "--seed", 2,
-         "--disperse", os.path.join(MODELS, "chaser_dispersions.toml"), "--json", f"{d}/simulate.json"])
-    run(["ordex-estimate", "--model", os.path.join(MODELS, "sled_depth.toml"), "--noise",
-         os.path.join(MODELS, "sled_depth_noise.toml"), "--samples", 21, "--json", f"{d}/estimate.json"])
     return d
 
 

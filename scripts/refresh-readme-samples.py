@@ -7,10 +7,14 @@ Refreshed: a ```sh block holding one build/bin command and followed by a plain `
 output), and a ``` block that opens with '$ build/bin/...' (continuation lines allowed) and
 elides nothing ('...'). Commands run in a scratch folder beside links to build/ and models/, so
 their output files land there and the printed paths stay relative."""
-import re, subprocess, sys, os, tempfile
+import os
+import subprocess
+import tempfile
+
 root = os.getcwd()
 lines = open('README.md').read().split('\n')
-work = tempfile.mkdtemp()
+scratch = tempfile.TemporaryDirectory()  # removed when the script ends
+work = scratch.name
 for d in ('build', 'models', 'examples', 'bench'):
     os.symlink(os.path.join(root, d), os.path.join(work, d))
 def run(cmd):

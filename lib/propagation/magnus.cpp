@@ -18,7 +18,7 @@ namespace {
 class MagnusStepper : public StepperBase {
  public:
   MagnusStepper(const Generator& g, const PropagationOptions& o, int order)
-      : g_(g), o_(o), order_(order), split_(g.van_loan_half > 0 && 2 * g.van_loan_half == g.dim ? g.van_loan_half : 0) {
+      : g_(g), o_(o), order_(order), split_(van_loan_split(g)) {
     const int n = g.dim;
     for (auto* m : {&a1_, &a2_, &a3_, &omega_, &c1_, &c2_, &t1_, &t2_, &full_, &h1_, &h2_,
                     &half_, &diff_, &xnew_, &err_, &delta_})

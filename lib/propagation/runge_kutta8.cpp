@@ -50,7 +50,7 @@ class RungeKutta8Stepper : public StepperBase {
 
  public:
   RungeKutta8Stepper(const Generator& g, const PropagationOptions& o)
-      : g_(g), o_(o), split_(g.van_loan_half > 0 && 2 * g.van_loan_half == g.dim ? g.van_loan_half : 0) {
+      : g_(g), o_(o), split_(van_loan_split(g)) {
     const int n = g.dim;
     for (auto& k : k_) k.resize(n, n);
     for (auto* m : {&y_, &ai_, &s_, &e5_, &xnew_, &err_, &carry_, &x_, &error_}) m->resize(n, n);

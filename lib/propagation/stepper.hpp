@@ -55,6 +55,12 @@ void accept_step(const TrialStep& trial, double b, double factor, double& t, dou
 void check_step_progress(const Generator& g, const PropagationOptions& o, double t, double b, double h,
                          long trials, bool last_trial_finite);
 
+/// G's Van Loan half (Generator::van_loan_half) when it splits G evenly, else 0: the split at
+/// which the steppers form commutators and products on the blocks (block_algebra.hpp).
+inline Eigen::Index van_loan_split(const Generator& g) {
+  return g.van_loan_half > 0 && 2 * g.van_loan_half == g.dim ? g.van_loan_half : 0;
+}
+
 /// Infinity norm (largest row sum of absolute values).
 inline double norm_inf(const Eigen::MatrixXd& m) { return m.cwiseAbs().rowwise().sum().maxCoeff(); }
 

@@ -417,3 +417,32 @@ TEST(PropagationEngine, WindowPiecesOnThreadsMatchBoostAndBreakpoints) {
     EXPECT_NE(std::string(e.what()).find("not finite at t = 3"), std::string::npos) << e.what();
   }
 }
+
+TEST(PropagationEngine, Rk8ReusesStepEndsAndSeesAJumpFromItsOwnLeg) {
+  // A piecewise-constant A with a jump at t = 1.5 (the closed form as in StepsLandOnBreakpoints).
+  // rk8's last stage sits on the step's end; on a leg's last step that end is the breakpoint,
+  // where A already holds the next leg's value: the stage must take the leg's own side, or the
+  // step is rejected down to slivers. And A(t + h) of an accepted step is the next step's A(t),
+  // so a step costs eleven evaluations, not twelve (counted by the model itself).
+  Eigen::MatrixXd a1(2, 2), a2(2, 2);
+  a1 << 0, 1, -4, -0.1;
+  a2 << 0.2, 1, -1, 0;
+  long calls = 0;
+  FunctionSystem s({"x", "v"});
+  s.set_A([&calls, a1, a2](double t, MatrixRef m) {
+    ++calls;
+    m = t < 1.5 ? a1 : a2;
+  });
+  s.set_breakpoints({1.5});
+  const Eigen::MatrixXd ref = (a2 * 2.5).exp() * (a1 * 1.5).exp();
+  Propagator p(state_generator(s), opts(Method::Rk8, 1e-12, 1e-14));
+  const Eigen::MatrixXd phi = p.transition(0, 4.0);
+  EXPECT_LT(max_abs(phi - ref), 1e-10);
+  const PropagationStats& st = p.stats();
+  EXPECT_EQ(st.evaluations, calls);
+  const long trials = st.steps + st.rejected_steps;
+  // Per leg: one evaluation to size the first step, then eleven per trial, plus the first A(t)
+  // of the leg when its start is not the end of an accepted step.
+  EXPECT_LE(calls, 11 * trials + 2 * 2);
+  EXPECT_LE(st.rejected_steps, 2) << st.steps << " steps";
+}

@@ -95,7 +95,10 @@ class RungeKutta8Stepper : public StepperBase {
       const TrialStep trial = propose_step(h, std::abs(b - t), dir);
       const double hd = trial.signed_length;
       double e = std::numeric_limits<double>::infinity();
-      bool finite = step(t, hd, stats);
+      // The last stage sits on the step's end. On a leg's last step that is the leg's end,
+      // often a breakpoint where A jumps: take A from this leg's side of it, a rounding away.
+      const double last_node = trial.last ? std::nextafter(b, a) : t + hd;
+      bool finite = step(t, hd, last_node, stats);
       if (finite) {
         block_product_into(xnew_, s_, X, xsplit_);
         block_product_into(err_, e5_, X, xsplit_);
@@ -120,7 +123,7 @@ class RungeKutta8Stepper : public StepperBase {
         const double t_end = t + hd;
         accept_step(trial, b, factor, t, h, steps_here, stats, progress);
         // The last stage was A(t + h): the next step's first stage when it starts there.
-        if (t == t_end) {
+        if (!trial.last && t == t_end) {
           a0_.swap(a_end_);
           t_a0_ = t;
         } else {
@@ -172,8 +175,9 @@ class RungeKutta8Stepper : public StepperBase {
   }
 
   /// S = Phi(t + h, t) into s_, its 5th-order error matrix into e5_ and the factor e5_scale_
-  /// that turns it into the combined estimate. False when a stage overflows.
-  bool step(double t, double h, PropagationStats& stats) {
+  /// that turns it into the combined estimate; the last stage evaluates A at LAST_NODE (t + h,
+  /// or just inside a leg's end). False when a stage overflows.
+  bool step(double t, double h, double last_node, PropagationStats& stats) {
     if (!(have_a0_ && t_a0_ == t)) {  // else A(t) is kept from the last accepted or rejected trial
       eval_checked(t, h, stats);
       a0_ = ai_;
@@ -185,10 +189,10 @@ class RungeKutta8Stepper : public StepperBase {
       y_.setIdentity();
       for (int j = 0; j < i; ++j)
         if (kA[i][j] != 0) y_ += (h * kA[i][j]) * k_[j];
-      eval_checked(t + kC[i] * h, h, stats);
+      eval_checked(i + 1 < kStages ? t + kC[i] * h : last_node, h, stats);
       block_product_into(k_[i], ai_, y_, split_);
     }
-    a_end_ = ai_;  // kC[11] = 1: A(t + h)
+    a_end_ = ai_;  // kC[11] = 1: A at the step's end
     s_.setIdentity();
     e5_.setZero();
     double e3_sq = 0;

@@ -446,3 +446,27 @@ TEST(PropagationEngine, Rk8ReusesStepEndsAndSeesAJumpFromItsOwnLeg) {
   EXPECT_LE(calls, 11 * trials + 2 * 2);
   EXPECT_LE(st.rejected_steps, 2) << st.steps << " steps";
 }
+
+TEST(PropagationEngine, RejectedTrialsStayRareOnALongOscillatoryRun) {
+  // Mathieu's equation at a = 2, q = 5 (stable) over 50 periods, one long run at rtol 1e-10.
+  // With the plain step-size law 19 % of magnus6's trials were rejected here (585 of 3101), each
+  // a wasted step; the controller's integral term and its no-growth-after-rejection rule bring
+  // magnus6 to 8 % and rk8 to 7 % (measured 2026-12-02). The rest come from entries of Phi
+  // passing through zero, where the entrywise test weighs the error by atol. Accuracy: the
+  // 50-period map must agree with the 50th power of the one-period map (composition).
+  const FunctionSystem s = mathieu_system(2.0, 5.0);
+  for (Method m : {Method::Magnus6, Method::Rk8}) {
+    Propagator one(state_generator(s), opts(m, 1e-10));
+    const Eigen::MatrixXd period = one.transition(0, M_PI);
+    PropagationOptions direct = opts(m, 1e-10);
+    direct.use_period = false;  // one long run, not the monodromy's power
+    Propagator p(state_generator(s), direct);
+    const Eigen::MatrixXd phi = p.transition(0, 50 * M_PI);
+    const PropagationStats& st = p.stats();
+    EXPECT_LT(st.rejected_steps, 0.1 * (st.steps + st.rejected_steps)) << method_name(m) << ": " << st.rejected_steps << " of "
+                                                  << st.steps + st.rejected_steps << " trials rejected";
+    Eigen::MatrixXd power = Eigen::MatrixXd::Identity(2, 2);
+    for (int k = 0; k < 50; ++k) power = period * power;
+    EXPECT_LT(max_abs(phi - power), 1e-6 * max_abs(power)) << method_name(m);
+  }
+}

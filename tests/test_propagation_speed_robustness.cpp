@@ -4,12 +4,14 @@
 
 #include <chrono>
 #include <cmath>
+#include <limits>
 #include <sstream>
 
 #include "io/errors.hpp"
 #include "model/function_system.hpp"
 #include "model/model_file.hpp"
 #include "propagation/propagator.hpp"
+#include "propagation/stepper.hpp"
 #include "support.hpp"
 
 using namespace ordex;
@@ -143,4 +145,20 @@ TEST(PropagationRobustness, UnstableGeneratorIsANumericalErrorNotAHang) {
           << what;
     }
   }
+}
+
+TEST(StepController, FollowsTheProportionalIntegralLawWithinItsLimits) {
+  // The law of Hairer, Norsett & Wanner (Solving ODEs I, Sec. IV.2) for an estimate of order
+  // h^8 with beta = 0.04: factor = 0.9 e^-(1/8 - 0.03) e_prev^0.04, within [1/3, 6].
+  StepController c(8.0, 1.0 / 3.0, 6.0);
+  EXPECT_NEAR(c.next_factor(1.0), 0.9, 1e-15);  // e_prev starts at 1
+  EXPECT_NEAR(c.next_factor(0.5), 0.9 * std::pow(0.5, -0.095), 1e-14);
+  EXPECT_NEAR(c.next_factor(0.25), 0.9 * std::pow(0.25, -0.095) * std::pow(0.5, 0.04), 1e-14);
+  EXPECT_EQ(c.next_factor(0.0), 6.0);               // no error seen: the largest growth
+  EXPECT_EQ(c.next_factor(1e-30), 6.0);             // capped
+  EXPECT_NEAR(c.next_factor(2.0), 0.9 * std::pow(2.0, -1.0 / 8.0), 1e-15);  // rejected: plain law
+  EXPECT_LE(c.next_factor(1e-6), 1.0);              // no growth right after a rejection
+  EXPECT_GT(c.next_factor(1e-6), 1.0);              // and growth again after that
+  EXPECT_EQ(c.next_factor(std::numeric_limits<double>::infinity()), 1.0 / 3.0);  // a non-finite trial
+  EXPECT_EQ(c.next_factor(1e12), 1.0 / 3.0);
 }

@@ -18,7 +18,7 @@ namespace {
 class MagnusStepper : public StepperBase {
  public:
   MagnusStepper(const Generator& g, const PropagationOptions& o, int order)
-      : g_(g), o_(o), order_(order), split_(van_loan_split(g)) {
+      : g_(g), o_(o), order_(order), split_(van_loan_split(g)), controller_(order + 1.0, 0.2, 5.0) {
     const int n = g.dim;
     for (auto* m : {&a1_, &a2_, &a3_, &omega_, &c1_, &c2_, &t1_, &t2_, &full_, &h1_, &h2_,
                     &half_, &diff_, &xnew_, &err_, &delta_})
@@ -62,12 +62,11 @@ class MagnusStepper : public StepperBase {
         block_product_into(err_, diff_, X, xsplit_);
         err_ /= (std::pow(2.0, p) - 1.0);
         finite = xnew_.allFinite() && err_.allFinite();
-        if (finite) e = weighted_rms(err_, xnew_);
+        if (finite) e = weighted_rms(err_, xnew_, o_);
         if (!std::isfinite(e)) finite = false;
       }
       last_trial_finite_ = finite;
-      double factor = e > 0 ? 0.9 * std::pow(e, -1.0 / (p + 1.0)) : 5.0;
-      factor = std::min(5.0, std::max(0.2, factor));
+      const double factor = controller_.next_factor(e);
       if (e <= 1.0) {
         h_validated_ = true;
         block_product_into(diff_, half_, error, xsplit_);
@@ -111,22 +110,11 @@ class MagnusStepper : public StepperBase {
     // exp(Omega6) - exp(Omega4) ~ (Omega6 - Omega4) exp(Omega6)
     block_product_into(err_, delta_, xnew_, xsplit_);
     if (!xnew_.allFinite() || !err_.allFinite()) return false;
-    if (!(weighted_rms(err_, xnew_) <= 1.0)) return false;
+    if (!(weighted_rms(err_, xnew_, o_) <= 1.0)) return false;
     block_product_into(diff_, half_, error, xsplit_);
     error = diff_ + err_;
     X.swap(xnew_);
     return true;
-  }
-
-  /// Weighted RMS of the local error ERR of XNEW, entrywise weights atol + rtol |x| as CVODE
-  /// uses; above 1 fails the tolerance.
-  double weighted_rms(const Eigen::MatrixXd& err, const Eigen::MatrixXd& xnew) const {
-    double sum = 0;
-    for (Eigen::Index k = 0; k < err.size(); ++k) {
-      double r = err(k) / (o_.atol + o_.rtol * std::abs(xnew(k)));
-      sum += r * r;
-    }
-    return std::sqrt(sum / static_cast<double>(err.size()));
   }
 
   /// Throws when G itself is not finite at a node: that is the model's failure, which no
@@ -190,6 +178,7 @@ class MagnusStepper : public StepperBase {
   int order_;
   Eigen::Index split_;       // G's Van Loan half (Generator::van_loan_half), 0 for a general G
   Eigen::Index xsplit_ = 0;  // split_ when this leg's X and error are block upper triangular
+  StepController controller_;  // the doubling estimate goes like h^(order + 1)
   Eigen::MatrixXd work_;     // split_ x split_ scratch of the commutators
   double h_desired_ = 0;
   bool h_validated_ = false;  // a step of about h_desired_ has passed the error test

@@ -43,12 +43,6 @@ const double kE5[12] = {0.01312004499419488, 0.0, 0.0, 0.0, 0.0, -1.225156446376
 const double kE3[12] = {-0.18980075407240762, 0.0, 0.0, 0.0, 0.0, 4.450312892752409, 1.8915178993145003, -5.801203960010585, -0.4226823213237919, -0.1521609496625161, 0.20136540080403034, 0.02265179219836082};
 
 constexpr int kStages = 12;
-/// The step controller's exponents: h_new = 0.9 h e^-kAlpha e_prev^kBeta, with kAlpha =
-/// 1/8 - 0.75 kBeta so that a constant error ratio gives the plain 1/8 law. kBeta chosen by
-/// measurement (bench_propagation, 0, 0.02, 0.04 and 0.06 tried at matched 1e-9 and 1e-12):
-/// 0.02 and 0.04 gave the same geometric mean, 0.06 lengthened the short orbit runs' start.
-constexpr double kBeta = 0.04;
-constexpr double kAlpha = 1.0 / 8.0 - 0.75 * kBeta;
 
 // N is the state dimension when fixed at compile time (small plants, where dynamic-size
 // bookkeeping would cost more than the arithmetic), Eigen::Dynamic otherwise.
@@ -90,7 +84,6 @@ class RungeKutta8Stepper : public StepperBase {
     if (o_.max_step > 0) h = std::min(h, o_.max_step);
     long steps_here = 0, trials_here = 0;
     bool last_trial_finite = true;
-    bool after_rejection = false;
     while (dir * (b - t) > 0) {
       const TrialStep trial = propose_step(h, std::abs(b - t), dir);
       const double hd = trial.signed_length;
@@ -104,18 +97,14 @@ class RungeKutta8Stepper : public StepperBase {
         block_product_into(err_, e5_, X, xsplit_);
         err_ *= e5_scale_;
         finite = xnew_.allFinite() && err_.allFinite();
-        if (finite) e = weighted_rms(err_, X, xnew_);
+        if (finite) e = weighted_rms(err_, xnew_, o_);
         if (!std::isfinite(e)) finite = false;
       }
       last_trial_finite = finite;
-      // A proportional-integral step controller (Hairer, Norsett & Wanner, Sec. IV.2): the
-      // combined estimate behaves like the 8th-order local error. The limits (at most 6x
-      // longer, 3x shorter, no growth right after a rejection) are DOP853's. Both keep the
-      // controller from overshooting into rejected trials, each of which costs eleven
-      // evaluations of A for nothing: on the 50-period Mathieu run 17 % of the trials were
-      // rejected with the plain controller, none with this one (docs/performance.md).
-      double factor = e > 0 ? 0.9 * std::pow(e, -kAlpha) * std::pow(e_prev_, kBeta) : 6.0;
-      factor = std::min(after_rejection ? 1.0 : 6.0, std::max(1.0 / 3.0, factor));
+      // Rejected trials cost eleven evaluations of A for nothing: the controller's integral
+      // term keeps them rarer (on the 50-period Mathieu run 17 % of the trials with the plain
+      // law and DOP853's limits, 7 % with it; docs/performance.md). The estimate goes like h^8.
+      const double factor = controller_.next_factor(e);
       if (e <= 1.0) {
         block_product_into(carry_, s_, error, xsplit_);
         error = carry_ + err_;
@@ -129,12 +118,9 @@ class RungeKutta8Stepper : public StepperBase {
         } else {
           have_a0_ = false;
         }
-        after_rejection = false;
-        e_prev_ = std::max(e, 1e-4);
       } else {
         ++stats.rejected_steps;
-        h = trial.size * std::min(factor, 0.9);
-        after_rejection = true;
+        h = trial.size * factor;
       }
       if (o_.max_step > 0) h = std::min(h, o_.max_step);
       check_step_progress(g_, o_, t, b, h, ++trials_here, last_trial_finite);
@@ -154,17 +140,6 @@ class RungeKutta8Stepper : public StepperBase {
       throw NumericalError(with_diagnosis(g_, a, span >= 0 ? 1.0 : -1.0, g_.label + " is not finite at t = " + format_number(a)));
     const double h = nrm > 0 ? 0.5 * std::pow(o_.rtol, 1.0 / 9.0) / nrm : span;
     return std::min(h, span);
-  }
-
-  /// The error's RMS in units of atol + rtol max(|X|, |X new|), entry by entry: the scale of
-  /// the step's two ends, so that an entry passing through zero is not judged by atol alone.
-  double weighted_rms(const Mat& err, const Mat& x, const Mat& xnew) const {
-    double sum = 0;
-    for (Eigen::Index k = 0; k < err.size(); ++k) {
-      const double r = err(k) / (o_.atol + o_.rtol * std::max(std::abs(x(k)), std::abs(xnew(k))));
-      sum += r * r;
-    }
-    return std::sqrt(sum / static_cast<double>(err.size()));
   }
 
   void eval_checked(double t, double h, PropagationStats& stats) {
@@ -216,7 +191,7 @@ class RungeKutta8Stepper : public StepperBase {
   Eigen::Index split_;       // G's Van Loan half (Generator::van_loan_half), 0 for a general G
   Eigen::Index xsplit_ = 0;  // split_ when this leg's X and error are block upper triangular
   double h_desired_ = 0;
-  double e_prev_ = 1.0;
+  StepController controller_{8.0, 1.0 / 3.0, 6.0};  // DOP853's limits: at most 3x shorter, 6x longer
   bool have_a0_ = false;  // a0_ holds A(t_a0_)
   double t_a0_ = 0;
   double e5_scale_ = 1;

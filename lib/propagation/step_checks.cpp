@@ -23,6 +23,19 @@ TrialStep propose_step(double h, double remaining, double dir) {
   return s;
 }
 
+double StepController::next_factor(double e) {
+  if (e <= 1.0) {
+    double f = e > 0 ? 0.9 * std::pow(e, -alpha_) * std::pow(e_prev_, beta_) : max_;
+    f = std::min(after_rejection_ ? 1.0 : max_, std::max(min_, f));
+    e_prev_ = std::max(e, 1e-4);  // a tiny error says little about the next one
+    after_rejection_ = false;
+    return f;
+  }
+  after_rejection_ = true;
+  const double f = std::isfinite(e) ? 0.9 * std::pow(e, -1.0 / k_) : 0.0;
+  return std::min(0.9, std::max(min_, f));
+}
+
 void accept_step(const TrialStep& trial, double b, double factor, double& t, double& h, long& steps_here,
                  PropagationStats& stats, const std::function<void(double)>& progress) {
   t = trial.last ? b : t + trial.signed_length;

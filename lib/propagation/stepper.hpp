@@ -2,6 +2,8 @@
 // Internal: one integration method behind the Propagator. A stepper advances X in place over a
 // leg [a, b] that contains no breakpoint inside, and carries the running error estimate of X.
 #include <Eigen/Dense>
+#include <algorithm>
+#include <cmath>
 #include <functional>
 #include <memory>
 
@@ -54,6 +56,43 @@ void accept_step(const TrialStep& trial, double b, double factor, double& t, dou
 /// window far too long ends at once with the projected count rather than grinding on).
 void check_step_progress(const Generator& g, const PropagationOptions& o, double t, double b, double h,
                          long trials, bool last_trial_finite);
+
+/// The adaptive steppers' step-size controller: the factor by which the next trial's size
+/// follows from this trial's weighted error E (accepted when E <= 1). Accepted steps use the
+/// proportional-integral law 0.9 E^-alpha E_prev^beta (Hairer, Norsett & Wanner, Solving ODEs
+/// I, Sec. IV.2), with alpha = 1/K - 0.75 beta for an estimate whose error goes like h^K, so
+/// that a steady error ratio gives the plain 1/K law; it damps the overshoot into rejected
+/// trials that the plain law shows on oscillatory plants. A rejected trial shrinks by the plain
+/// law (at most 0.9), and the step after it may not grow (as in DOP853).
+class StepController {
+ public:
+  /// K: the power of h in the error estimate; the factor stays within [MIN_FACTOR, MAX_FACTOR].
+  StepController(double k, double min_factor, double max_factor, double beta = kBeta)
+      : k_(k), alpha_(1.0 / k - 0.75 * beta), beta_(beta), min_(min_factor), max_(max_factor) {}
+  /// The next step's size over this trial's, after a trial of weighted error E (may be infinite).
+  double next_factor(double e);
+  /// beta, chosen by measurement (bench_propagation and the flexible stack, docs/performance.md).
+  static constexpr double kBeta = 0.04;
+
+ private:
+  double k_, alpha_, beta_, min_, max_;
+  double e_prev_ = 1.0;
+  bool after_rejection_ = false;
+};
+
+/// RMS over the entries of the local error ERR of XNEW in units of atol + rtol |XNEW|, as CVODE
+/// weighs them; above 1 fails the tolerance. (The scale max(|X|, |XNEW|) of the step's two ends
+/// was tried: on a strongly decaying plant it let steps grow until the estimate was no longer
+/// honest, which the Liouville check of tests/test_numbers_liouville.cpp caught.)
+template <class M>
+double weighted_rms(const M& err, const M& xnew, const PropagationOptions& o) {
+  double sum = 0;
+  for (Eigen::Index k = 0; k < err.size(); ++k) {
+    const double r = err(k) / (o.atol + o.rtol * std::abs(xnew(k)));
+    sum += r * r;
+  }
+  return std::sqrt(sum / static_cast<double>(err.size()));
+}
 
 /// G's Van Loan half (Generator::van_loan_half) when it splits G evenly, else 0: the split at
 /// which the steppers form commutators and products on the blocks (block_algebra.hpp).

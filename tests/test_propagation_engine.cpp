@@ -470,3 +470,29 @@ TEST(PropagationEngine, RejectedTrialsStayRareOnALongOscillatoryRun) {
     EXPECT_LT(max_abs(phi - power), 1e-6 * max_abs(power)) << method_name(m);
   }
 }
+
+TEST(PropagationEngine, ShortLegsKeepTheirOneStepEach) {
+  // An output grid a little finer than the natural step: each leg's trial is cut short to land
+  // on the grid, and its smaller error must not shrink the step that the next leg gets (a
+  // controller that took it for its integral term halved every step of a 10 ms discrete model).
+  // Smooth oscillator x'' = -(1 + 0.1 sin t) x on [0, 20], legs of 0.65 of the step that one
+  // run over the window takes: every leg should be one step. Accuracy against the composition
+  // law: the legs' product equals a tight run over the window.
+  FunctionSystem s({"x", "v"});
+  s.set_A([](double t, MatrixRef a) { a << 0, 1, -(1 + 0.1 * std::sin(t)), 0; });
+  for (Method m : {Method::Magnus6, Method::Rk8}) {
+    Propagator once(state_generator(s), opts(m, 1e-8, 1e-10));
+    once.transition(0, 20);
+    const double leg = 0.65 * 20.0 / static_cast<double>(once.stats().steps);
+    std::vector<double> grid;
+    for (double t = 0; t < 20; t += leg) grid.push_back(t);
+    Propagator p(state_generator(s), opts(m, 1e-8, 1e-10));
+    const auto maps = p.interval_maps(grid);
+    EXPECT_LE(p.stats().steps, static_cast<long>(maps.size()) + 5)
+        << method_name(m) << ": " << maps.size() << " legs of " << leg;
+    Eigen::MatrixXd product = Eigen::MatrixXd::Identity(2, 2);
+    for (const auto& step : maps) product = step * product;
+    Propagator whole(state_generator(s), opts(m, 1e-12, 1e-14));
+    EXPECT_LT(max_abs(product - whole.transition(0, grid.back())), 1e-6) << method_name(m);
+  }
+}

@@ -66,7 +66,7 @@ class MagnusStepper : public StepperBase {
         if (!std::isfinite(e)) finite = false;
       }
       last_trial_finite_ = finite;
-      const double factor = controller_.next_factor(e);
+      const double factor = controller_.next_factor(e, trial.size >= h);
       if (e <= 1.0) {
         h_validated_ = true;
         block_product_into(diff_, half_, error, xsplit_);

@@ -23,11 +23,17 @@ TrialStep propose_step(double h, double remaining, double dir) {
   return s;
 }
 
-double StepController::next_factor(double e) {
+double StepController::next_factor(double e, bool natural_size) {
   if (e <= 1.0) {
-    double f = e > 0 ? 0.9 * std::pow(e, -alpha_) * std::pow(e_prev_, beta_) : max_;
+    // A trial cut short (to land on a leg's end, or to avoid a sliver) has a small error that
+    // says nothing of the next step's: the plain law for it, and it does not become e_prev.
+    // Otherwise a grid of short legs (interval maps, discrete models) sees a falling error as
+    // a rising one and halves every step.
+    const double alpha = natural_size ? alpha_ : 1.0 / k_;
+    const double integral = natural_size ? std::pow(e_prev_, beta_) : 1.0;
+    double f = e > 0 ? 0.9 * std::pow(e, -alpha) * integral : max_;
     f = std::min(after_rejection_ ? 1.0 : max_, std::max(min_, f));
-    e_prev_ = std::max(e, 1e-4);  // a tiny error says little about the next one
+    if (natural_size) e_prev_ = std::max(e, 1e-4);  // a tiny error says little about the next one
     after_rejection_ = false;
     return f;
   }

@@ -69,8 +69,10 @@ class StepController {
   /// K: the power of h in the error estimate; the factor stays within [MIN_FACTOR, MAX_FACTOR].
   StepController(double k, double min_factor, double max_factor, double beta = kBeta)
       : k_(k), alpha_(1.0 / k - 0.75 * beta), beta_(beta), min_(min_factor), max_(max_factor) {}
-  /// The next step's size over this trial's, after a trial of weighted error E (may be infinite).
-  double next_factor(double e);
+  /// The next step's size over this trial's, after a trial of weighted error E (may be
+  /// infinite). NATURAL_SIZE: the trial had the size the controller asked for, not one cut
+  /// short by the leg's end.
+  double next_factor(double e, bool natural_size = true);
   /// beta, chosen by measurement (bench_propagation and the flexible stack, docs/performance.md).
   static constexpr double kBeta = 0.04;
 

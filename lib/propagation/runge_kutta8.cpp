@@ -103,7 +103,7 @@ class RungeKutta8Stepper : public StepperBase {
       last_trial_finite = finite;
       // Rejected trials cost eleven evaluations of A for nothing: the controller's integral
       // term keeps them rarer (on the 50-period Mathieu run 17 % of the trials with the plain
-      // law and DOP853's limits, 7 % with it; docs/performance.md). The estimate goes like h^8.
+      // law, 7 % with it; docs/performance.md). The estimate goes like h^8.
       const double factor = controller_.next_factor(e, trial.size >= h);
       if (e <= 1.0) {
         block_product_into(carry_, s_, error, xsplit_);

@@ -6,9 +6,10 @@ states and inputs the library returns, with the aerodynamic table interpolated b
 the same equations integrated by scipy.integrate.solve_ivp (scipy, Debian; DOP853, row to row of
 the table, whose kinks it must not step across)."""
 import os
-import unittest
+from types import SimpleNamespace
 
 import numpy as np
+import pytest
 from scipy import integrate
 
 import ordex
@@ -98,90 +99,95 @@ class HandJacobian:
                           beta=beta, m=m, inertia=inertia, cna=cna, ca=ca, cma=cma, cmq=cmq)
 
 
-class AscentPitch(unittest.TestCase):
-    @classmethod
-    def setUpClass(cls):
-        path = os.path.join(MODELS, "ascent_pitch.toml")
-        cls.model = ordex.load_nonlinear(path, rtol=1e-10, atol=1e-12)
-        cls.p = {k: cls.model.parameters[k] for k in NAMES}
-        with open(os.path.join(MODELS, "ascent_pitch_aero.csv")) as f:
-            rows = [line.strip().split(",") for line in f if line.strip() and not line.startswith("#")]
-        cls.table = dict(zip(rows[0], np.array(rows[1:], dtype=float).T))
-        # Off the table's rows (where the linear table has kinks) and on some of them.
-        times = np.union1d(np.linspace(0.0, 40.0, 57), [0.3, 12.5, 17.5, 39.9])
-        cls.lin = ordex.linearize(cls.model, times)
-        cls.hand = HandJacobian(cls.p, cls.table, cls.lin.times, cls.lin.x, cls.lin.u)
-
-    def assert_entries(self, got, want, what):
-        # Relative 1e-9, each entry against its own largest size along the nominal (so that an
-        # entry passing through zero is held to the same scale).
-        scale = np.max(np.abs(want), axis=0, keepdims=True)
-        bad = np.abs(got - want) > 1e-9 * scale + 1e-300
-        self.assertFalse(bad.any(), "%s: %d entries differ, first at %s: %r against %r" % (
-            what, bad.sum(), np.argwhere(bad)[0] if bad.any() else None,
-            got[bad][:1], want[bad][:1]))
-
-    def test_the_model_is_what_the_test_differentiates(self):
-        self.assertEqual(self.model.states, ["altitude", "V", "gamma", "theta", "q"])
-        self.assertEqual(self.model.inputs, ["gimbal", "wind"])
-        self.assertEqual(self.model.outputs, ["pitch", "normal_accel"])
-        # The nominal flies: altitude and speed grow, the path bends over, the angles stay small.
-        x = self.lin.x
-        self.assertTrue(np.all(np.diff(x[:, 0]) > 0) and np.all(np.diff(x[:, 1]) > 0))
-        self.assertLess(x[-1, 2], x[0, 2])
-        self.assertLess(np.max(np.abs(self.hand.parts["alpha"])), 0.05)
-        # The nominal inputs are the file's schedules.
-        t = self.lin.times
-        np.testing.assert_allclose(self.lin.u[:, 0], 0.0015 * np.exp(-((t - 6.0) / 2) ** 2), rtol=1e-14, atol=1e-18)
-        np.testing.assert_allclose(self.lin.u[:, 1], 8.0 * (1 - np.exp(-t / 15)), rtol=1e-14, atol=1e-18)
-
-    def test_the_nominal_follows_the_equations(self):
-        def f(t, x):
-            u = np.array([[0.0015 * np.exp(-((t - 6.0) / 2) ** 2), 8.0 * (1 - np.exp(-t / 15))]])
-            return HandJacobian(self.p, self.table, np.array([t]), x[None, :], u).f[0]
-        x, rows = self.model.nominal_x0, self.table["t"]
-        for a, b in zip(rows[:-1], rows[1:]):
-            x = integrate.solve_ivp(f, (a, b), x, method="DOP853", rtol=1e-11, atol=1e-12).y[:, -1]
-        t = self.lin.times
-        np.testing.assert_allclose(self.lin.x[-1], x, rtol=1e-8)
-        np.testing.assert_allclose(self.model.nominal_state(t[-1]), x, rtol=1e-8)
-
-    def test_A_and_B_match_the_hand_derivatives(self):
-        self.assert_entries(self.lin.A, self.hand.grad[:, :, :5], "A")
-        self.assert_entries(self.lin.B, self.hand.grad[:, :, 5:], "B")
-        self.assert_entries(self.lin.C, self.hand.h_grad[:, :, :5], "C")
-        self.assert_entries(self.lin.D, self.hand.h_grad[:, :, 5:], "D")
-        # The aerodynamics matter: the pitch stiffness dq'/dtheta = qbar S d Cm_alpha / I
-        # (negative: a stable vehicle) carries the table's transonic rise.
-        s = self.hand.parts
-        np.testing.assert_allclose(self.lin.A[:, 4, 3], s["qbar"] * self.p["S"] * self.p["d"] * s["cma"] / s["inertia"],
-                                   rtol=1e-9)
-        self.assertTrue(np.all(self.lin.A[1:, 4, 3] < 0))
-
-    def test_the_wind_column(self):
-        # d/dw directly: the wind changes only u_air = V cos(gamma) - w, so
-        # d alpha/dw = -V sin(gamma)/Va^2, d Va^2/dw = -2 u_air, d qbar/dw = -rho u_air.
-        s, p = self.hand.parts, self.p
-        S, d = p["S"], p["d"]
-        da = -s["v"] * np.sin(s["gam"]) / s["va2"]
-        dq = -s["rho"] * s["ua"]
-        dn = S * s["cna"] * (dq * s["alpha"] + s["qbar"] * da)
-        dx = -S * s["ca"] * dq
-        sb, cb = np.sin(s["beta"]), np.cos(s["beta"])
-        want = np.stack([np.zeros_like(da),
-                         (dx * cb - dn * sb) / s["m"],
-                         (dx * sb + dn * cb) / (s["m"] * s["v"]),
-                         np.zeros_like(da),
-                         S * d * (s["cma"] * (dq * s["alpha"] + s["qbar"] * da)
-                                  + d * s["cmq"] * s["q"] * s["rho"] * (-s["ua"] / s["vair"]) / 4) / s["inertia"]], axis=1)
-        got = self.lin.B[:, :, 1]
-        self.assert_entries(got, want, "B[:, wind]")
-        np.testing.assert_array_equal(got[:, [0, 3]], 0.0)
-        # A tailwind lowers the angle of attack of the climbing vehicle, so (Cm_alpha < 0) it
-        # pitches the nose up: q' grows with w, and the path bends less (gamma' falls).
-        self.assertTrue(np.all(got[:, 4] > 0))
-        self.assertTrue(np.all(got[:, 2] < 0))
+@pytest.fixture(scope="module")
+def ascent():
+    """The loaded model, its parameters and aerodynamic table, its linearization along the nominal
+    and the hand derivatives at the same states and inputs."""
+    path = os.path.join(MODELS, "ascent_pitch.toml")
+    model = ordex.load_nonlinear(path, rtol=1e-10, atol=1e-12)
+    p = {k: model.parameters[k] for k in NAMES}
+    with open(os.path.join(MODELS, "ascent_pitch_aero.csv")) as f:
+        rows = [line.strip().split(",") for line in f if line.strip() and not line.startswith("#")]
+    table = dict(zip(rows[0], np.array(rows[1:], dtype=float).T))
+    # Off the table's rows (where the linear table has kinks) and on some of them.
+    times = np.union1d(np.linspace(0.0, 40.0, 57), [0.3, 12.5, 17.5, 39.9])
+    lin = ordex.linearize(model, times)
+    hand = HandJacobian(p, table, lin.times, lin.x, lin.u)
+    return SimpleNamespace(model=model, p=p, table=table, lin=lin, hand=hand)
 
 
-if __name__ == "__main__":
-    unittest.main()
+def assert_entries(got, want, what):
+    # Relative 1e-9, each entry against its own largest size along the nominal (so that an
+    # entry passing through zero is held to the same scale).
+    scale = np.max(np.abs(want), axis=0, keepdims=True)
+    bad = np.abs(got - want) > 1e-9 * scale + 1e-300
+    assert not bad.any(), "%s: %d entries differ, first at %s: %r against %r" % (
+        what, bad.sum(), np.argwhere(bad)[0] if bad.any() else None,
+        got[bad][:1], want[bad][:1])
+
+
+def test_the_model_is_what_the_test_differentiates(ascent):
+    model, lin, hand = ascent.model, ascent.lin, ascent.hand
+    assert model.states == ["altitude", "V", "gamma", "theta", "q"]
+    assert model.inputs == ["gimbal", "wind"]
+    assert model.outputs == ["pitch", "normal_accel"]
+    # The nominal flies: altitude and speed grow, the path bends over, the angles stay small.
+    x = lin.x
+    assert np.all(np.diff(x[:, 0]) > 0) and np.all(np.diff(x[:, 1]) > 0)
+    assert x[-1, 2] < x[0, 2]
+    assert np.max(np.abs(hand.parts["alpha"])) < 0.05
+    # The nominal inputs are the file's schedules.
+    t = lin.times
+    np.testing.assert_allclose(lin.u[:, 0], 0.0015 * np.exp(-((t - 6.0) / 2) ** 2), rtol=1e-14, atol=1e-18)
+    np.testing.assert_allclose(lin.u[:, 1], 8.0 * (1 - np.exp(-t / 15)), rtol=1e-14, atol=1e-18)
+
+
+def test_the_nominal_follows_the_equations(ascent):
+    def f(t, x):
+        u = np.array([[0.0015 * np.exp(-((t - 6.0) / 2) ** 2), 8.0 * (1 - np.exp(-t / 15))]])
+        return HandJacobian(ascent.p, ascent.table, np.array([t]), x[None, :], u).f[0]
+    x, rows = ascent.model.nominal_x0, ascent.table["t"]
+    for a, b in zip(rows[:-1], rows[1:]):
+        x = integrate.solve_ivp(f, (a, b), x, method="DOP853", rtol=1e-11, atol=1e-12).y[:, -1]
+    t = ascent.lin.times
+    np.testing.assert_allclose(ascent.lin.x[-1], x, rtol=1e-8)
+    np.testing.assert_allclose(ascent.model.nominal_state(t[-1]), x, rtol=1e-8)
+
+
+def test_A_and_B_match_the_hand_derivatives(ascent):
+    lin, hand, p = ascent.lin, ascent.hand, ascent.p
+    assert_entries(lin.A, hand.grad[:, :, :5], "A")
+    assert_entries(lin.B, hand.grad[:, :, 5:], "B")
+    assert_entries(lin.C, hand.h_grad[:, :, :5], "C")
+    assert_entries(lin.D, hand.h_grad[:, :, 5:], "D")
+    # The aerodynamics matter: the pitch stiffness dq'/dtheta = qbar S d Cm_alpha / I
+    # (negative: a stable vehicle) carries the table's transonic rise.
+    s = hand.parts
+    np.testing.assert_allclose(lin.A[:, 4, 3], s["qbar"] * p["S"] * p["d"] * s["cma"] / s["inertia"],
+                               rtol=1e-9)
+    assert np.all(lin.A[1:, 4, 3] < 0)
+
+
+def test_the_wind_column(ascent):
+    # d/dw directly: the wind changes only u_air = V cos(gamma) - w, so
+    # d alpha/dw = -V sin(gamma)/Va^2, d Va^2/dw = -2 u_air, d qbar/dw = -rho u_air.
+    s, p = ascent.hand.parts, ascent.p
+    S, d = p["S"], p["d"]
+    da = -s["v"] * np.sin(s["gam"]) / s["va2"]
+    dq = -s["rho"] * s["ua"]
+    dn = S * s["cna"] * (dq * s["alpha"] + s["qbar"] * da)
+    dx = -S * s["ca"] * dq
+    sb, cb = np.sin(s["beta"]), np.cos(s["beta"])
+    want = np.stack([np.zeros_like(da),
+                     (dx * cb - dn * sb) / s["m"],
+                     (dx * sb + dn * cb) / (s["m"] * s["v"]),
+                     np.zeros_like(da),
+                     S * d * (s["cma"] * (dq * s["alpha"] + s["qbar"] * da)
+                              + d * s["cmq"] * s["q"] * s["rho"] * (-s["ua"] / s["vair"]) / 4) / s["inertia"]], axis=1)
+    got = ascent.lin.B[:, :, 1]
+    assert_entries(got, want, "B[:, wind]")
+    np.testing.assert_array_equal(got[:, [0, 3]], 0.0)
+    # A tailwind lowers the angle of attack of the climbing vehicle, so (Cm_alpha < 0) it
+    # pitches the nose up: q' grows with w, and the path bends less (gamma' falls).
+    assert np.all(got[:, 4] > 0)
+    assert np.all(got[:, 2] < 0)

@@ -12,10 +12,9 @@ import json
 import os
 import subprocess
 import sys
-import tempfile
-import unittest
 
 import numpy as np
+import pytest
 
 from plot_support import MODELS, SOURCE_DIR, app, run
 
@@ -55,134 +54,131 @@ def mpirun(np_, args):
                           capture_output=True, text=True, timeout=300, env=env)
 
 
-class WithoutHdf5(unittest.TestCase):
-    @unittest.skipIf(HDF5_BUILT, "this build writes HDF5 (the tests below check it)")
-    def test_refused_when_not_built(self):
-        p = run(["ordex-sweep", "--model", MATHIEU, "--job", "floquet", "--grid", "a=0:1:2", "--hdf5", "x.h5"],
-                expect=2)
-        self.assertIn("no HDF5", p.stderr)
+@pytest.mark.skipif(HDF5_BUILT, reason="this build writes HDF5 (the tests below check it)")
+def test_refused_when_not_built():
+    p = run(["ordex-sweep", "--model", MATHIEU, "--job", "floquet", "--grid", "a=0:1:2", "--hdf5", "x.h5"],
+            expect=2)
+    assert "no HDF5" in p.stderr
 
 
-@unittest.skipUnless(HDF5_BUILT, "built without HDF5 (ORDEX_HDF5=OFF or no libhdf5-dev)")
-class SweepHdf5(unittest.TestCase):
-    def setUp(self):
-        self.tmp = tempfile.TemporaryDirectory()
-        self.dir = self.tmp.name
-
-    def tearDown(self):
-        self.tmp.cleanup()
-
-    def path(self, name):
-        return os.path.join(self.dir, name)
-
-    def test_columns_are_the_csv_whatever_threads_and_ranks(self):
-        args = ["ordex-sweep", "--model", MATHIEU, "--job", "floquet", "--grid", "a=-0.5:6.5:15", "--grid",
-                "q=0.25:2:4", "--rtol", "1e-10", "--atol", "1e-12"]
-        run(args + ["--threads", 1, "--csv", self.path("t1.csv"), "--hdf5", self.path("t1.h5")])
-        run(args + ["--threads", 2, "--hdf5", self.path("t2.h5")])
-        header, table = read_table(self.path("t1.csv"))
-        columns, data, attrs = read_h5(self.path("t1.h5"))
-        self.assertEqual(columns, header)
-        self.assertEqual(columns, ["a", "q", "max_abs_multiplier", "stable", "error"])
-        for name in header[:-1]:
-            self.assertEqual(data[name].shape, (60,))
-            self.assertEqual(data[name].dtype, np.float64)
-            self.assertEqual(data[name].tobytes(), table[name].tobytes(), name)  # bit for bit
-        self.assertEqual(data["error"], table["error"])
-        self.assertEqual(data["error"], [""] * 60)
-        # The summary's header as attributes.
-        self.assertEqual(attrs["app"], "ordex-sweep")
-        self.assertEqual(attrs["job"], "floquet")
-        self.assertEqual(list(attrs["parameters"]), ["a", "q"])
-        self.assertEqual(list(attrs["figures"]), ["max_abs_multiplier", "stable"])
-        self.assertEqual(attrs["points"], 60)
-        self.assertEqual(attrs["threads"], 1)
-        self.assertEqual(json.loads(attrs["model"])["title"], "Mathieu equation")
-        self.assertAlmostEqual(attrs["t1"] - attrs["t0"], np.pi, places=14)  # one period
-        self.assertEqual(json.loads(attrs["plan"])["axes"][1], {"name": "q", "from": 0.25, "to": 2.0, "count": 4})
-        # Liouville: det M = 1, so the largest multiplier has modulus at least 1.
-        self.assertTrue(np.all(data["max_abs_multiplier"] > 1 - 1e-7), data["max_abs_multiplier"])
-        # The chart against scipy's characteristic values, read from the HDF5 columns.
-        points = ["%r,%r" % (a, q) for a, q in zip(data["a"], data["q"])]
-        ref = subprocess.run([sys.executable, os.path.join(SOURCE_DIR, "tests", "reference", "sweep_mathieu_chart.py"),
-                              "0.05"] + points, capture_output=True, text=True, timeout=120)
-        self.assertEqual(ref.returncode, 0, ref.stderr)
-        verdicts = ref.stdout.split()
-        mu = data["max_abs_multiplier"]
-        stable = [m for m, v in zip(mu, verdicts) if v == "stable"]
-        unstable = [m for m, v in zip(mu, verdicts) if v == "unstable"]
-        self.assertGreaterEqual(len(stable), 15)
-        self.assertGreaterEqual(len(unstable), 15)
-        self.assertLess(max(stable), 1 + 1e-6)
-        self.assertGreater(min(unstable), 1 + 1e-3)
-        # Two threads and MPI ranks: the same columns.
-        others = ["t2.h5"]
-        if MPIEXEC:
-            for n in (2, 3):
-                p = mpirun(n, args[1:] + ["--hdf5", self.path("m%d.h5" % n)])
-                self.assertEqual(p.returncode, 0, p.stderr)
-                others.append("m%d.h5" % n)
-        for name in others:
-            c, d, a = read_h5(self.path(name))
-            self.assertEqual(c, columns)
-            for col in header[:-1]:
-                self.assertEqual(d[col].tobytes(), data[col].tobytes(), (name, col))
-            self.assertEqual(d["error"], data["error"])
-            self.assertEqual(a["computed"], 60)
-        if MPIEXEC:
-            self.assertEqual(read_h5(self.path("m3.h5"))[2]["ranks"], 3)
-
-    def test_failing_point_and_resume(self):
-        model = self.path('rig "b", damped.toml')  # a comma and a quote: the error field is quoted in the CSV
-        with open(model, "w") as f:
-            f.write(DAMPED)
-        args = ["ordex-sweep", "--model", model, "--job", "floquet", "--grid", "d=-0.01:0.03:5", "--grid", "q=0.4:0.5:2",
-                "--threads", 2]
-        run(args + ["--csv", self.path("full.csv"), "--hdf5", self.path("full.h5")])
-        header, table = read_table(self.path("full.csv"))
-        columns, data, attrs = read_h5(self.path("full.h5"))
-        self.assertEqual(data["error"], table["error"])
-        for k in (0, 1):  # d = -0.01: sqrt(d) is not a number
-            self.assertIn("evaluates to nan", data["error"][k])
-            self.assertIn('rig "b", damped.toml', data["error"][k])
-            self.assertTrue(np.isnan(data["max_abs_multiplier"][k]))
-        for name in header[:-1]:
-            np.testing.assert_array_equal(data[name], table[name])
-        # Liouville with damping sqrt(d) at a = 2, inside the stable band for these q.
-        d = data["d"][2:]
-        np.testing.assert_allclose(data["max_abs_multiplier"][2:], np.exp(-np.sqrt(d) * np.pi / 2), atol=1e-6)
-        self.assertEqual(attrs["failed"], 2)
-        self.assertEqual(json.loads(attrs["first_failures"])[1]["point"], 2)
-        # Interrupted after 3 rows and half of the fourth (the failing rows among those kept).
-        with open(self.path("full.csv")) as f:
-            lines = f.read().split("\n")
-        with open(self.path("cut.csv"), "w") as f:
-            f.write("\n".join(lines[:4]) + "\n" + lines[4][:6])
-        p = run(args + ["--csv", self.path("cut.csv"), "--hdf5", self.path("resumed.h5"), "--resume"])
-        self.assertIn("7 computed, 3 resumed", p.stderr)
-        c, resumed, a = read_h5(self.path("resumed.h5"))
-        self.assertEqual(c, columns)
-        for name in header[:-1]:
-            self.assertEqual(resumed[name].tobytes(), data[name].tobytes(), name)
-        self.assertEqual(resumed["error"], data["error"])
-        self.assertEqual(a["resumed"], 3)
-
-    def test_refused_outputs(self):
-        with open(MATHIEU, "rb") as f:
-            before = f.read()
-        args = ["ordex-sweep", "--model", MATHIEU, "--job", "floquet", "--grid", "a=0:1:2"]
-        for extra, needle in ((["--hdf5", MATHIEU], "mathieu.toml"),
-                              (["--hdf5", self.path("x"), "--csv", self.path("x")], "x"),
-                              (["--hdf5", "-"], "--hdf5"),
-                              (["--hdf5", self.path("nofolder/x.h5")], "nofolder")):
-            p = run(args + extra, expect=2)
-            self.assertEqual(len(p.stderr.splitlines()), 1, p.stderr)
-            self.assertTrue(p.stderr.startswith("ordex-sweep: error: "), p.stderr)
-            self.assertIn(needle, p.stderr)
-        with open(MATHIEU, "rb") as f:
-            self.assertEqual(f.read(), before)
-        self.assertEqual(os.listdir(self.dir), [])  # nothing written, no temporary left
+needs_hdf5 = pytest.mark.skipif(not HDF5_BUILT, reason="built without HDF5 (ORDEX_HDF5=OFF or no libhdf5-dev)")
 
 
-if __name__ == "__main__":
-    unittest.main()
+@pytest.fixture
+def path(tmp_path):
+    """NAME inside the test's own temporary folder."""
+    return lambda name: str(tmp_path / name)
+
+
+@needs_hdf5
+def test_columns_are_the_csv_whatever_threads_and_ranks(path):
+    args = ["ordex-sweep", "--model", MATHIEU, "--job", "floquet", "--grid", "a=-0.5:6.5:15", "--grid",
+            "q=0.25:2:4", "--rtol", "1e-10", "--atol", "1e-12"]
+    run(args + ["--threads", 1, "--csv", path("t1.csv"), "--hdf5", path("t1.h5")])
+    run(args + ["--threads", 2, "--hdf5", path("t2.h5")])
+    header, table = read_table(path("t1.csv"))
+    columns, data, attrs = read_h5(path("t1.h5"))
+    assert columns == header
+    assert columns == ["a", "q", "max_abs_multiplier", "stable", "error"]
+    for name in header[:-1]:
+        assert data[name].shape == (60,)
+        assert data[name].dtype == np.float64
+        assert data[name].tobytes() == table[name].tobytes(), name  # bit for bit
+    assert data["error"] == table["error"]
+    assert data["error"] == [""] * 60
+    # The summary's header as attributes.
+    assert attrs["app"] == "ordex-sweep"
+    assert attrs["job"] == "floquet"
+    assert list(attrs["parameters"]) == ["a", "q"]
+    assert list(attrs["figures"]) == ["max_abs_multiplier", "stable"]
+    assert attrs["points"] == 60
+    assert attrs["threads"] == 1
+    assert json.loads(attrs["model"])["title"] == "Mathieu equation"
+    assert round(abs((attrs["t1"] - attrs["t0"]) - np.pi), 14) == 0  # one period
+    assert json.loads(attrs["plan"])["axes"][1] == {"name": "q", "from": 0.25, "to": 2.0, "count": 4}
+    # Liouville: det M = 1, so the largest multiplier has modulus at least 1.
+    assert np.all(data["max_abs_multiplier"] > 1 - 1e-7), data["max_abs_multiplier"]
+    # The chart against scipy's characteristic values, read from the HDF5 columns.
+    points = ["%r,%r" % (a, q) for a, q in zip(data["a"], data["q"])]
+    ref = subprocess.run([sys.executable, os.path.join(SOURCE_DIR, "tests", "reference", "sweep_mathieu_chart.py"),
+                          "0.05"] + points, capture_output=True, text=True, timeout=120)
+    assert ref.returncode == 0, ref.stderr
+    verdicts = ref.stdout.split()
+    mu = data["max_abs_multiplier"]
+    stable = [m for m, v in zip(mu, verdicts) if v == "stable"]
+    unstable = [m for m, v in zip(mu, verdicts) if v == "unstable"]
+    assert len(stable) >= 15
+    assert len(unstable) >= 15
+    assert max(stable) < 1 + 1e-6
+    assert min(unstable) > 1 + 1e-3
+    # Two threads and MPI ranks: the same columns.
+    others = ["t2.h5"]
+    if MPIEXEC:
+        for n in (2, 3):
+            p = mpirun(n, args[1:] + ["--hdf5", path("m%d.h5" % n)])
+            assert p.returncode == 0, p.stderr
+            others.append("m%d.h5" % n)
+    for name in others:
+        c, d, a = read_h5(path(name))
+        assert c == columns
+        for col in header[:-1]:
+            assert d[col].tobytes() == data[col].tobytes(), (name, col)
+        assert d["error"] == data["error"]
+        assert a["computed"] == 60
+    if MPIEXEC:
+        assert read_h5(path("m3.h5"))[2]["ranks"] == 3
+
+
+@needs_hdf5
+def test_failing_point_and_resume(path):
+    model = path('rig "b", damped.toml')  # a comma and a quote: the error field is quoted in the CSV
+    with open(model, "w") as f:
+        f.write(DAMPED)
+    args = ["ordex-sweep", "--model", model, "--job", "floquet", "--grid", "d=-0.01:0.03:5", "--grid", "q=0.4:0.5:2",
+            "--threads", 2]
+    run(args + ["--csv", path("full.csv"), "--hdf5", path("full.h5")])
+    header, table = read_table(path("full.csv"))
+    columns, data, attrs = read_h5(path("full.h5"))
+    assert data["error"] == table["error"]
+    for k in (0, 1):  # d = -0.01: sqrt(d) is not a number
+        assert "evaluates to nan" in data["error"][k]
+        assert 'rig "b", damped.toml' in data["error"][k]
+        assert np.isnan(data["max_abs_multiplier"][k])
+    for name in header[:-1]:
+        np.testing.assert_array_equal(data[name], table[name])
+    # Liouville with damping sqrt(d) at a = 2, inside the stable band for these q.
+    d = data["d"][2:]
+    np.testing.assert_allclose(data["max_abs_multiplier"][2:], np.exp(-np.sqrt(d) * np.pi / 2), atol=1e-6)
+    assert attrs["failed"] == 2
+    assert json.loads(attrs["first_failures"])[1]["point"] == 2
+    # Interrupted after 3 rows and half of the fourth (the failing rows among those kept).
+    with open(path("full.csv")) as f:
+        lines = f.read().split("\n")
+    with open(path("cut.csv"), "w") as f:
+        f.write("\n".join(lines[:4]) + "\n" + lines[4][:6])
+    p = run(args + ["--csv", path("cut.csv"), "--hdf5", path("resumed.h5"), "--resume"])
+    assert "7 computed, 3 resumed" in p.stderr
+    c, resumed, a = read_h5(path("resumed.h5"))
+    assert c == columns
+    for name in header[:-1]:
+        assert resumed[name].tobytes() == data[name].tobytes(), name
+    assert resumed["error"] == data["error"]
+    assert a["resumed"] == 3
+
+
+@needs_hdf5
+def test_refused_outputs(tmp_path, path):
+    with open(MATHIEU, "rb") as f:
+        before = f.read()
+    args = ["ordex-sweep", "--model", MATHIEU, "--job", "floquet", "--grid", "a=0:1:2"]
+    for extra, needle in ((["--hdf5", MATHIEU], "mathieu.toml"),
+                          (["--hdf5", path("x"), "--csv", path("x")], "x"),
+                          (["--hdf5", "-"], "--hdf5"),
+                          (["--hdf5", path("nofolder/x.h5")], "nofolder")):
+        p = run(args + extra, expect=2)
+        assert len(p.stderr.splitlines()) == 1, p.stderr
+        assert p.stderr.startswith("ordex-sweep: error: "), p.stderr
+        assert needle in p.stderr
+    with open(MATHIEU, "rb") as f:
+        assert f.read() == before
+    assert os.listdir(tmp_path) == []  # nothing written, no temporary left

@@ -2,11 +2,21 @@
 import os
 import subprocess
 
+import pytest
+
 SOURCE_DIR = os.environ.get("ORDEX_SOURCE_DIR",
                             os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__)))))
 BIN_DIR = os.environ.get("ORDEX_BIN_DIR", os.path.join(SOURCE_DIR, "build", "bin"))
 MODELS = os.path.join(SOURCE_DIR, "models")
 DATA = os.path.join(SOURCE_DIR, "tests", "data")
+HDF5_BUILT = os.environ.get("ORDEX_HDF5", "ON").upper() not in ("OFF", "FALSE", "0")
+needs_hdf5 = pytest.mark.skipif(not HDF5_BUILT, reason="built without HDF5 (ORDEX_HDF5=OFF or no libhdf5-dev)")
+
+
+@pytest.fixture
+def path(tmp_path):
+    """NAME inside the test's own temporary folder (a fixture: import it into the test file)."""
+    return lambda name: str(tmp_path / name)
 
 
 def load_plot_module():

@@ -16,10 +16,9 @@ import numpy as np
 import pytest
 import scipy.linalg
 
-from plot_support import DATA, MODELS, app, read_csv, run, write_input
+from plot_support import DATA, HDF5_BUILT, MODELS, app, needs_hdf5, path, read_csv, run, write_input  # noqa: F401 (path: a fixture)
 
 
-HDF5_BUILT = os.environ.get("ORDEX_HDF5", "ON").upper() not in ("OFF", "FALSE", "0")
 # Under AddressSanitizer (scripts/test-sanitizers.sh sets ORDEX_SANITIZED) freed memory waits in
 # the sanitizer's quarantine (256 MB by default), so a run's peak grows with the number of
 # allocations it makes, not with what it holds: the memory comparisons mean nothing there.
@@ -52,15 +51,6 @@ def test_compact_by_default_indented_on_request():
 def test_refused_when_not_built():
     p = run(["ordex-propagate", "--model", os.path.join(MODELS, "mathieu.toml"), "--hdf5", "x.h5"], expect=2)
     assert "no HDF5" in p.stderr
-
-
-needs_hdf5 = pytest.mark.skipif(not HDF5_BUILT, reason="built without HDF5 (ORDEX_HDF5=OFF or no libhdf5-dev)")
-
-
-@pytest.fixture
-def path(tmp_path):
-    """NAME inside the test's own temporary folder."""
-    return lambda name: str(tmp_path / name)
 
 
 @needs_hdf5

@@ -16,9 +16,8 @@ import sys
 import numpy as np
 import pytest
 
-from plot_support import MODELS, SOURCE_DIR, app, run
+from plot_support import HDF5_BUILT, MODELS, SOURCE_DIR, app, needs_hdf5, path, run  # noqa: F401 (path: a fixture)
 
-HDF5_BUILT = os.environ.get("ORDEX_HDF5", "ON").upper() not in ("OFF", "FALSE", "0")
 MPIEXEC = os.environ.get("ORDEX_MPIEXEC", "")
 if HDF5_BUILT:
     import h5py
@@ -59,15 +58,6 @@ def test_refused_when_not_built():
     p = run(["ordex-sweep", "--model", MATHIEU, "--job", "floquet", "--grid", "a=0:1:2", "--hdf5", "x.h5"],
             expect=2)
     assert "no HDF5" in p.stderr
-
-
-needs_hdf5 = pytest.mark.skipif(not HDF5_BUILT, reason="built without HDF5 (ORDEX_HDF5=OFF or no libhdf5-dev)")
-
-
-@pytest.fixture
-def path(tmp_path):
-    """NAME inside the test's own temporary folder."""
-    return lambda name: str(tmp_path / name)
 
 
 @needs_hdf5

@@ -2,6 +2,7 @@
 // one-line message naming file/key/option, no partial output file).
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <nlohmann/json.hpp>
 #include <sstream>
 #include <vector>
@@ -199,7 +200,10 @@ TEST(FrontEnd, ProgressShowsRealFractions) {
   EXPECT_NE(lines.str().find("ordex-x: 30% after"), std::string::npos) << lines.str();
   EXPECT_EQ(lines.str().find("35%"), std::string::npos) << lines.str();
   EXPECT_NE(lines.str().find("ordex-x: 62% after"), std::string::npos) << lines.str();
-  EXPECT_EQ(ordex_test::line_count(lines.str()), 2);
+  const std::string text = lines.str();
+  EXPECT_EQ(std::count(text.begin(), text.end(), '\n'), 2) << text;
+  // The one-line error checks of the app tests leave these lines out (a slow build prints them).
+  EXPECT_EQ(ordex_test::line_count(text + "ordex-x: bad.toml:3: no [matrices] table\n"), 1) << text;
   // On a terminal: a bar redrawn in place, ending with a newline at 100%.
   std::ostringstream bar;
   auto b = ordex::progress_reporter("ordex-x", bar, /*terminal=*/true, /*every=*/0.05);

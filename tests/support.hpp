@@ -77,7 +77,7 @@ inline bool is_progress_line(const std::string& line) {
   std::size_t i = colon + 2, digits = 0;
   while (i < line.size() && std::isdigit(static_cast<unsigned char>(line[i]))) ++i, ++digits;
   if (digits == 0 || line.compare(i, 7, "% after") != 0) return false;
-  return line.size() >= 2 && line.compare(line.size() - 2, 2, " s") == 0;
+  return line.compare(line.size() - 2, 2, " s") == 0;  // the line holds "% after", so size >= 7
 }
 
 /// Counts the lines of S (for "one-line error" checks), leaving out progress lines.
